@@ -1,0 +1,264 @@
+"""From a design to spectra: the fast periodic coupled-dipole model, as a pure function and a front door.
+
+Pipeline (one arrow per module): design → permittivities ε(λ) (``_materials``) → element
+inverse polarizabilities (``_polarizability``) → dipoles, rods optionally resolved into chains
+(``_chain``) → Ewald lattice Green's tensor (``_green``) → dense coupled-dipole solve (``_solve``) →
+diffraction orders and zero-order Jones matrices (``_farfield``) → ``Response``.
+
+Approximations of the fast model, all stated:
+  * each element is one point dipole (or a chain of N for rods, ``ModelOptions.dipoles_per_rod``) with
+    an ellipsoid-equivalent anisotropic polarizability and a long-wavelength correction
+    (``ModelOptions.correction``); spheres use the exact Mie a1 dipole term;
+  * the cell sits in a homogeneous medium of index sqrt((n_sup² + n_sub²)/2) (``Design.medium_index``):
+    no Fresnel reflection from the substrate, no substrate-induced resonance shift beyond that average;
+  * magnetic dipoles and higher multipoles are neglected (valid for thin metal rods well below λ).
+Incidence from the superstrate side (travelling towards -z); plane wave of unit amplitude at z = 0.
+"""
+
+import dataclasses
+import math
+from typing import NamedTuple
+
+import jax
+import jax.numpy as jnp
+import numpy as np
+
+from . import _jaxsetup  # noqa: F401
+from ._chain import chain_coupling, chain_offsets, renormalise
+from ._errors import InvdesignError
+from ._farfield import order_amplitudes
+from ._lattice import Lattice, make_ewald_plan
+from ._polarizability import inverse_polarizability
+from ._solve import absorbed_fraction, interaction_matrix, plane_wave_at, solve_dipoles
+from ._units import NM, k0_per_m
+
+CORRECTIONS = ("radiative", "kelly", "moroz")
+
+
+@dataclasses.dataclass(frozen=True)
+class ModelOptions:
+    """Choices of the fast model (static: changing one recompiles).
+
+    Attributes:
+      dipoles_per_rod: dipoles per rod chain (1 = a single point dipole per rod), int ≥ 1.
+      correction: long-wavelength correction of the element polarizability: "radiative" (quasi-static
+        plus radiative reaction), "kelly" or "moroz" (see ``invdesign._polarizability``).
+    """
+
+    dipoles_per_rod: int = 1
+    correction: str = "kelly"
+
+    def __post_init__(self):
+        if not isinstance(self.dipoles_per_rod, int) or self.dipoles_per_rod < 1:
+            raise InvdesignError(
+                f"model.dipoles_per_rod must be an integer ≥ 1, got {self.dipoles_per_rod!r}")
+        if self.correction not in CORRECTIONS:
+            raise InvdesignError(f"model.correction must be one of {', '.join(CORRECTIONS)}, "
+                                 f"got {self.correction!r}")
+
+
+@dataclasses.dataclass(frozen=True)
+class Incidence:
+    """Incident plane wave, coming from the superstrate.
+
+    Attributes:
+      polar_deg: angle from the surface normal, degrees (0 = normal incidence).
+      azimuth_deg: azimuth of the plane of incidence from +x, degrees.
+
+    Jones basis: input column 0 is p (TM), column 1 is s (TE), with s = (-sin φ, cos φ, 0) and
+    p = k̂ × s for the incident and transmitted waves, p = s × k̂ for the reflected wave. At normal
+    incidence with φ = 0 these are exactly x and y, so t and r are the usual x–y Jones matrices.
+    """
+
+    polar_deg: float = 0.0
+    azimuth_deg: float = 0.0
+
+
+class Orders(NamedTuple):
+    """Diffraction orders (m1, m2) that propagate somewhere in the band.
+
+    Fields: indices (n_o, 2) int; propagating (n_wl, n_o) bool; transmitted and reflected power
+    fractions (n_wl, n_o, 2) for the two input polarisations; amplitudes (n_wl, n_o, 3, 2) complex lab-
+    frame field vectors (scattered part; the zero-order transmitted amplitude excludes the incident wave).
+    """
+
+    indices: jax.Array
+    propagating: jax.Array
+    transmitted_power: jax.Array
+    reflected_power: jax.Array
+    transmitted_amplitude: jax.Array
+    reflected_amplitude: jax.Array
+
+
+class Response(NamedTuple):
+    """Spectral response of a cell. n_wl wavelengths; input polarisation index last where it appears.
+
+    Fields:
+      wavelengths_nm: (n_wl,).
+      t, r: (n_wl, 2, 2) complex zero-order Jones matrices [output, input] in the (x, y) basis at normal
+        incidence (p, s in general), transmitted into the substrate side and reflected to the superstrate.
+      transmittance, reflectance: (n_wl, 2) total power fractions over all propagating orders, for
+        x- (p-) and y- (s-) polarised input.
+      absorbance: (n_wl, 2) absorbed fraction from the dipoles' work.
+      orders: ``Orders``.
+      chain_residual: (n_wl,) worst chain-renormalisation residual (0 without chains).
+    """
+
+    wavelengths_nm: jax.Array
+    t: jax.Array
+    r: jax.Array
+    transmittance: jax.Array
+    reflectance: jax.Array
+    absorbance: jax.Array
+    orders: Orders
+    chain_residual: jax.Array
+
+
+@dataclasses.dataclass(frozen=True)
+class Problem:
+    """Everything about a simulation except the differentiable cell parameters (built by ``prepare``)."""
+
+    wavelengths_nm: np.ndarray
+    eps: dict  # material name -> (n_wl,) complex permittivity
+    medium_index: float
+    incidence: Incidence
+    model: ModelOptions
+    plan: object
+    order_indices: np.ndarray
+
+
+def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
+            incidence: Incidence = Incidence(), period_scales=(1.0,)) -> Problem:
+    """Check inputs and precompute the static part of a simulation (materials, truncation, orders).
+
+    Raises ``InvdesignError`` (before any heavy work) for wavelengths outside a material's data or a
+    non-positive wavelength. ``period_scales``: lattice scale factors the Ewald truncation must cover
+    (the optimiser passes its period bounds).
+    """
+    wl = np.atleast_1d(np.asarray(wavelengths_nm, dtype=float))
+    if wl.ndim != 1 or wl.size == 0 or not np.all(np.isfinite(wl)) or np.any(wl <= 0):
+        raise InvdesignError("wavelengths must be a non-empty 1-D list of positive numbers in nm")
+    used = sorted({e.material for e in design.elements})
+    eps = {}
+    for name in used:
+        mat = design.material(name)
+        mat.check_range(wl, where=f"elements of material '{name}'")
+        eps[name] = np.asarray(mat.permittivity(jnp.asarray(wl)), dtype=complex)
+    n_med = design.medium_index()
+    k_max = 2 * math.pi * n_med / (wl.min() * NM)
+    p = design.params
+    a1, a2 = np.asarray(p.a1, float), np.asarray(p.a2, float)
+    sin_t = math.sin(math.radians(incidence.polar_deg))
+    kpar_max = k_max * abs(sin_t)
+    r_max = math.hypot(*(a1 + a2)) + math.hypot(*(a1 - a2))  # bound on in-cell separations
+    plan = make_ewald_plan(a1, a2, k_max, r_max_nm=r_max, kpar_max_per_m=kpar_max, scales=period_scales)
+    orders = _propagating_orders(a1, a2, k_max, kpar_max, period_scales)
+    return Problem(wl, eps, n_med, incidence, model, plan, orders)
+
+
+def _propagating_orders(a1, a2, k_max, kpar_max, scales) -> np.ndarray:
+    found = {(0, 0)}
+    for s in scales:
+        m = np.stack([a1, a2], axis=1) * NM * s
+        b = 2 * math.pi * np.linalg.inv(m).T
+        nmax = int(math.ceil((k_max + kpar_max) * max(np.linalg.norm(np.linalg.inv(b), axis=1)))) + 1
+        for i in range(-nmax, nmax + 1):
+            for j in range(-nmax, nmax + 1):
+                if np.linalg.norm(b @ np.array([i, j])) <= k_max + kpar_max:
+                    found.add((i, j))
+    return np.array(sorted(found, key=lambda t: (abs(t[0]) + abs(t[1]), t)), dtype=np.int64)
+
+
+def _dipoles(params, problem: Problem, k):
+    """Positions (n_d, 3) m, Λ (n_wl, n_d, 3), axes (n_d, 3, 3) and chain residual (n_wl,)."""
+    eps_m = problem.medium_index**2
+    pos, lams, axes, resid = [], [], [], []
+    for e in params.elements:
+        eps = jnp.asarray(problem.eps[e.material])
+        lam, _ = inverse_polarizability(e, eps, eps_m, k, correction=problem.model.correction)
+        rot = e.axes()
+        centre = jnp.array([e.center[0], e.center[1], e.height()]) * NM
+        n = problem.model.dipoles_per_rod if e.shape == "rod" else 1
+        if n == 1:
+            pos.append(centre[None])
+            lams.append(lam[:, None])
+            axes.append(rot[None])
+            continue
+        length = e.length * NM
+        lam_c, res = renormalise(lam, chain_coupling(n, length, k))
+        pos.append(centre[None] + chain_offsets(n, length)[:, None] * rot[:, 0][None])
+        lams.append(jnp.repeat(lam_c[:, None], n, axis=1))
+        axes.append(jnp.repeat(rot[None], n, axis=0))
+        resid.append(jnp.max(res, axis=1))
+    residual = jnp.max(jnp.stack(resid), axis=0) if resid else jnp.zeros(k.shape)
+    return jnp.concatenate(pos), jnp.concatenate(lams, axis=1), jnp.concatenate(axes), residual
+
+
+
+def response_from_params(params, problem: Problem) -> Response:
+    """The model as a pure function of the cell parameters: jit- and grad-compatible.
+
+    Args:
+      params: ``CellParams`` (nm), the differentiable pytree.
+      problem: static ``Problem`` from ``prepare`` (closed over, never traced).
+    """
+    wl = jnp.asarray(problem.wavelengths_nm)
+    k = k0_per_m(wl) * problem.medium_index  # (n_wl,)
+    lattice = Lattice.from_nm(params.a1, params.a2)
+    th = math.radians(problem.incidence.polar_deg)
+    ph = math.radians(problem.incidence.azimuth_deg)
+    s_vec = jnp.array([-math.sin(ph), math.cos(ph), 0.0])
+    khat_in = jnp.array([math.sin(th) * math.cos(ph), math.sin(th) * math.sin(ph), -math.cos(th)])
+    p_in = jnp.cross(khat_in, s_vec)
+    pols = jnp.stack([p_in, s_vec]).astype(complex)  # (2, 3)
+    positions, lam, axes, chain_res = _dipoles(params, problem, k)
+    area = lattice.area()
+    orders = jnp.asarray(problem.order_indices)
+
+    def one(args):
+        k1, lam1 = args
+        kvec = k1 * khat_in
+        kpar = kvec[:2]
+        mat = interaction_matrix(positions, lam1, axes, k1, kpar, lattice, problem.plan)
+        p = solve_dipoles(mat, plane_wave_at(positions, kvec, pols))
+        trans, refl, kz, prop = order_amplitudes(p, positions, k1, kpar, lattice, orders)
+        kz_in = k1 * math.cos(th)
+        t_pow = jnp.sum(jnp.abs(trans) ** 2, axis=-1) * kz[None] / kz_in
+        # zero order: add the incident wave to the forward scattered amplitude
+        t_pow = t_pow.at[:, 0].set(jnp.sum(jnp.abs(trans[:, 0] + pols) ** 2, axis=-1))
+        r_pow = jnp.sum(jnp.abs(refl) ** 2, axis=-1) * kz[None] / kz_in
+        khat_r = jnp.array([khat_in[0], khat_in[1], -khat_in[2]])
+        p_r = jnp.cross(s_vec, khat_r)
+        out_t = jnp.stack([p_in, s_vec])
+        out_r = jnp.stack([p_r, s_vec])
+        t0 = jnp.einsum("oa,na->on", out_t, trans[:, 0] + pols)
+        r0 = jnp.einsum("oa,na->on", out_r, refl[:, 0])
+        absorb = absorbed_fraction(p, lam1, axes, k1, area)
+        return (t0, r0, t_pow.T, r_pow.T, absorb, prop,
+                trans.transpose(1, 2, 0), refl.transpose(1, 2, 0))
+
+    t0, r0, t_pow, r_pow, absorb, prop, t_amp, r_amp = jax.lax.map(one, (k, lam))
+    return Response(
+        wavelengths_nm=wl, t=t0, r=r0,
+        transmittance=jnp.sum(t_pow, axis=1), reflectance=jnp.sum(r_pow, axis=1), absorbance=absorb,
+        orders=Orders(orders, prop, t_pow, r_pow, t_amp, r_amp), chain_residual=chain_res,
+    )
+
+
+def forward_function(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
+                     incidence: Incidence = Incidence(), period_scales=(1.0,)):
+    """A jitted pure function params -> Response for the optimiser, and the design's starting params.
+
+    Returns:
+      (fn, params): ``fn(params: CellParams) -> Response`` (jit-compiled once per shape);
+      ``params`` the design's ``CellParams``.
+    """
+    problem = prepare(design, wavelengths_nm, model=model, incidence=incidence, period_scales=period_scales)
+    return jax.jit(lambda params: response_from_params(params, problem)), design.params
+
+
+def simulate(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
+             incidence: Incidence = Incidence()) -> Response:
+    """Spectra of a design over the given wavelengths (nm). See ``Response`` for shapes and conventions."""
+    fn, params = forward_function(design, wavelengths_nm, model=model, incidence=incidence)
+    return jax.tree_util.tree_map(np.asarray, fn(params))
