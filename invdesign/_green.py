@@ -26,6 +26,7 @@ singular — physically real; results within ~1e-6 relative of that wavelength a
 
 import math
 
+import jax
 import jax.numpy as jnp
 
 from ._faddeeva import erfc_times_exp
@@ -99,47 +100,69 @@ def _self_real_space(k, e):
     return dphi0 / (6 * jnp.pi) + e**3 * e0 / (3 * jnp.pi**1.5 * k**2)
 
 
-def _spectral_terms(rho, z, kappa, k, e, area):
-    """Spectral Ewald dyadic summed over the reciprocal vectors.
+def _spectral_profiles(z, kappa, k, e, area):
+    """z-profiles f, f', f'' of each spectral term (..., n_g); f and f'' are even in z, f' is odd.
 
-    Args:
-      rho: (..., 2) in-plane displacement; z: (...,) normal displacement; kappa: (n_g, 2) = k∥ + G.
-
-    Returns:
-      (..., 3, 3) complex.
+    f(z) = (1/4Aγ)[e^{γz} erfc(γ/2E + zE) + e^{-γz} erfc(γ/2E - zE)], f' = (1/4A)[first - second]
+    (the Gaussian parts cancel), f'' = γ² f - (E/(A√π)) exp(-γ²/4E² - z²E²).
     """
     gam = -1j * jnp.sqrt(k**2 - jnp.sum(kappa**2, axis=-1) + 0j)  # (n_g,)
     zz = z[..., None]
-    u_plus = gam / (2 * e) + zz * e
-    u_minus = gam / (2 * e) - zz * e
-    t_plus = erfc_times_exp(u_plus, gam * zz)
-    t_minus = erfc_times_exp(u_minus, -gam * zz)
+    t_plus = erfc_times_exp(gam / (2 * e) + zz * e, gam * zz)
+    t_minus = erfc_times_exp(gam / (2 * e) - zz * e, -gam * zz)
     gauss = jnp.exp(-(gam**2) / (4 * e**2) - zz**2 * e**2)
     f = (t_plus + t_minus) / (4 * area * gam)
     df = (t_plus - t_minus) / (4 * area)
     d2f = gam**2 * f - (e / (area * _SQRT_PI)) * gauss
-    phase = jnp.exp(1j * jnp.einsum("...c,gc->...g", rho, kappa))
+    return f, df, d2f
+
+
+def _spectral_sum(phase, f, df, d2f, kappa, k):
+    """Σ_G phase · (f I + H/k²) with H the Hessian of e^{iκ·ρ} f(z); all inputs (..., n_g)."""
     kx, ky = kappa[:, 0], kappa[:, 1]
-    hxx = -kx * kx * f
-    hyy = -ky * ky * f
-    hxy = -kx * ky * f
-    hxz = 1j * kx * df
-    hyz = 1j * ky * df
-    hzz = d2f
-    row0 = jnp.stack([hxx, hxy, hxz], axis=-1)
-    row1 = jnp.stack([hxy, hyy, hyz], axis=-1)
-    row2 = jnp.stack([hxz, hyz, hzz], axis=-1)
-    hess = jnp.stack([row0, row1, row2], axis=-2)  # (..., n_g, 3, 3)
-    scalar = jnp.sum(phase * f, axis=-1)
-    hess = jnp.sum(phase[..., None, None] * hess, axis=-3)
-    return scalar[..., None, None] * jnp.eye(3) + hess / k**2
+    pf, pdf = phase * f, phase * df
+    hxx = jnp.sum(-kx * kx * pf, axis=-1)
+    hyy = jnp.sum(-ky * ky * pf, axis=-1)
+    hxy = jnp.sum(-kx * ky * pf, axis=-1)
+    hxz = jnp.sum(1j * kx * pdf, axis=-1)
+    hyz = jnp.sum(1j * ky * pdf, axis=-1)
+    hzz = jnp.sum(phase * d2f, axis=-1)
+    hess = jnp.stack([jnp.stack([hxx, hxy, hxz], -1), jnp.stack([hxy, hyy, hyz], -1),
+                      jnp.stack([hxz, hyz, hzz], -1)], axis=-2)
+    return jnp.sum(pf, axis=-1)[..., None, None] * jnp.eye(3) + hess / k**2
+
+
+def _wrap(rvec, lattice):
+    """Shift in-plane displacements by a lattice vector into the cell around the origin.
+
+    Returns (r_wrapped (..., 3), R (..., 2)) with r = r_wrapped + R. The integer shift carries no
+    gradient (it is piecewise constant); G_L(r_w + R) = exp(i k∥·R) G_L(r_w) restores the value.
+    """
+    m = lattice.matrix()
+    frac = rvec[..., :2] @ jnp.linalg.inv(m).T
+    shift = jax.lax.stop_gradient(jnp.round(frac))
+    big_r = shift @ m.T
+    return rvec.at[..., :2].add(-big_r), big_r
+
+
+def _real_space_dyadics(rvec, self_term, k, lattice, plan, e):
+    """Per-lattice-point real-space dyadics (..., n_s, 3, 3), singular origin of self sites zeroed."""
+    pts = lattice.points(plan.direct)  # (n_s, 2)
+    pts3 = jnp.concatenate([pts, jnp.zeros((pts.shape[0], 1))], axis=1)
+    is_origin = jnp.asarray((plan.direct == 0).all(axis=1))
+    rn = rvec[..., None, :] - pts3
+    singular = self_term[..., None] & is_origin
+    rn_safe = jnp.where(singular[..., None], jnp.array([1.0, 0.0, 0.0]) / jnp.real(e), rn)
+    rr, s, ds, d2s = _real_space_terms(rn_safe, k, e)
+    terms = _radial_dyadic(s, ds, d2s, rn_safe, rr, k)
+    return jnp.where(singular[..., None, None], 0.0, terms), pts
 
 
 def lattice_dyadic(rvec, self_term, k, kpar, lattice, plan):
     """Periodic dyadic Green's tensor of a 2D lattice, by Ewald summation.
 
     Args:
-      rvec: displacement(s) r_obs - r_src inside the cell, shape (..., 3), metres.
+      rvec: displacement(s) r_obs - r_src, shape (..., 3), metres (wrapped into the cell internally).
       self_term: bool array, shape (...): True where the displacement is the dipole's own site
         (rvec must then be 0); the n = 0 free-space singularity is removed there.
       k: medium wavenumber, 1/m, scalar (complex allowed with Im k ≥ 0; Re k > 0).
@@ -151,19 +174,41 @@ def lattice_dyadic(rvec, self_term, k, kpar, lattice, plan):
       complex128 array (..., 3, 3): G_L(r), or lim [G_L(r) - G(r)] where ``self_term``.
     """
     e = lattice.ewald_parameter(k)
-    pts = lattice.points(plan.direct)  # (n_s, 2)
-    pts3 = jnp.concatenate([pts, jnp.zeros((pts.shape[0], 1))], axis=1)
-    is_origin = jnp.asarray((plan.direct == 0).all(axis=1))  # (n_s,)
-    rn = rvec[..., None, :] - pts3  # (..., n_s, 3)
-    # mask the singular origin term of self sites with a harmless placeholder, then zero it
-    singular = self_term[..., None] & is_origin
-    rn_safe = jnp.where(singular[..., None], jnp.array([1.0, 0.0, 0.0]) / jnp.real(e), rn)
-    rr, s, ds, d2s = _real_space_terms(rn_safe, k, e)
-    terms = _radial_dyadic(s, ds, d2s, rn_safe, rr, k)
-    bloch = jnp.exp(1j * pts @ kpar)  # (n_s,)
-    terms = jnp.where(singular[..., None, None], 0.0, terms) * bloch[:, None, None]
-    real = jnp.sum(terms, axis=-3)
+    rw, big_r = _wrap(rvec, lattice)
+    terms, pts = _real_space_dyadics(rw, self_term, k, lattice, plan, e)
+    real = jnp.einsum("...nab,n->...ab", terms, jnp.exp(1j * pts @ kpar))
     real = real + jnp.where(self_term[..., None, None], _self_real_space(k, e) * jnp.eye(3), 0.0)
     kappa = kpar + lattice.reciprocal_points(plan.reciprocal)
-    spec = _spectral_terms(rvec[..., :2], rvec[..., 2], kappa, k, e, lattice.area())
-    return real + spec
+    f, df, d2f = _spectral_profiles(rw[..., 2], kappa, k, e, lattice.area())
+    phase = jnp.exp(1j * jnp.einsum("...c,gc->...g", rw[..., :2], kappa))
+    spec = _spectral_sum(phase, f, df, d2f, kappa, k)
+    return (real + spec) * jnp.exp(1j * big_r @ kpar)[..., None, None]
+
+
+def lattice_dyadic_pair(rvec, k, kpar, lattice, plan):
+    """G_L(r) and G_L(-r) for non-self displacements, sharing every special-function evaluation.
+
+    Reciprocity of the terms: G_L(-r; k∥) uses the same free-space terms G(r - R_n) with the Bloch
+    phases conjugated (G is even), and the same spectral profiles with f' odd in z and the in-plane
+    phase reversed. Halves the cost of filling the coupled-dipole matrix.
+
+    Args:
+      rvec: (..., 3) nonzero displacements, metres. Other arguments as ``lattice_dyadic``.
+
+    Returns:
+      (g_plus, g_minus), each (..., 3, 3) complex128.
+    """
+    e = lattice.ewald_parameter(k)
+    rw, big_r = _wrap(rvec, lattice)
+    no_self = jnp.zeros(rw.shape[:-1], dtype=bool)
+    terms, pts = _real_space_dyadics(rw, no_self, k, lattice, plan, e)
+    bloch = jnp.exp(1j * pts @ kpar)
+    real_plus = jnp.einsum("...nab,n->...ab", terms, bloch)
+    real_minus = jnp.einsum("...nab,n->...ab", terms, 1.0 / bloch)
+    kappa = kpar + lattice.reciprocal_points(plan.reciprocal)
+    f, df, d2f = _spectral_profiles(rw[..., 2], kappa, k, e, lattice.area())
+    arg = jnp.einsum("...c,gc->...g", rw[..., :2], kappa)
+    spec_plus = _spectral_sum(jnp.exp(1j * arg), f, df, d2f, kappa, k)
+    spec_minus = _spectral_sum(jnp.exp(-1j * arg), f, -df, d2f, kappa, k)
+    shift = jnp.exp(1j * big_r @ kpar)[..., None, None]
+    return (real_plus + spec_plus) * shift, (real_minus + spec_minus) / shift

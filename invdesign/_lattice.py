@@ -114,7 +114,8 @@ def make_ewald_plan(
     Args:
       a1_nm, a2_nm: primitive vectors in nm, shape (2,).
       k_max_per_m: the largest medium wavenumber in the band, 1/m.
-      r_max_nm: largest in-plane displacement between two dipoles of a cell, nm (widens real space).
+      r_max_nm: largest in-plane displacement between two dipoles after wrapping into the cell around
+        the origin, nm (widens real space); (|a1| + |a2|)/2 always suffices.
       kpar_max_per_m: largest in-plane Bloch wavenumber |k∥|, 1/m (widens reciprocal space).
       z_max_nm: largest |z| separation between dipoles, nm.
       scales: lattice scale factors the plan must also cover (an optimiser varying the period passes
@@ -130,7 +131,7 @@ def make_ewald_plan(
         for k in (0.0, k_max_per_m):
             e = max(math.sqrt(math.pi / area), k / (2.0 * _EWALD_H))
             r_cut = math.sqrt(k**2 / (4 * e**2) + _EWALD_DECAY) / e
-            shift = math.hypot(r_max_nm * 1e-9, 0.0)
+            shift = r_max_nm * 1e-9 * s
             direct.update(map(tuple, _disk_indices(m, r_cut, shift)))
             kappa_cut = math.sqrt(k_max_per_m**2 + 4 * e**2 * _EWALD_DECAY)
             b = 2 * math.pi * np.linalg.inv(m).T

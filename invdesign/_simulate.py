@@ -150,7 +150,7 @@ def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
     a1, a2 = np.asarray(p.a1, float), np.asarray(p.a2, float)
     sin_t = math.sin(math.radians(incidence.polar_deg))
     kpar_max = k_max * abs(sin_t)
-    r_max = math.hypot(*(a1 + a2)) + math.hypot(*(a1 - a2))  # bound on in-cell separations
+    r_max = 0.5 * (math.hypot(*a1) + math.hypot(*a2))  # bound on wrapped in-cell separations
     plan = make_ewald_plan(a1, a2, k_max, r_max_nm=r_max, kpar_max_per_m=kpar_max, scales=period_scales)
     orders = _propagating_orders(a1, a2, k_max, kpar_max, period_scales)
     return Problem(wl, eps, n_med, incidence, model, plan, orders)
@@ -169,30 +169,52 @@ def _propagating_orders(a1, a2, k_max, kpar_max, scales) -> np.ndarray:
     return np.array(sorted(found, key=lambda t: (abs(t[0]) + abs(t[1]), t)), dtype=np.int64)
 
 
+def _chain_length(problem: Problem, element) -> int:
+    return problem.model.dipoles_per_rod if element.shape == "rod" else 1
+
+
+def _stack(elements):
+    """Stack same-class elements into one pytree with a leading axis (material names dropped)."""
+    bare = [dataclasses.replace(e, material="") for e in elements]
+    return jax.tree_util.tree_map(lambda *xs: jnp.stack([jnp.asarray(x, dtype=float) for x in xs]), *bare)
+
+
 def _dipoles(params, problem: Problem, k):
-    """Positions (n_d, 3) m, Λ (n_wl, n_d, 3), axes (n_d, 3, 3) and chain residual (n_wl,)."""
+    """Positions (n_d, 3) m, Λ (n_wl, n_d, 3), axes (n_d, 3, 3) and chain residual (n_wl,).
+
+    Elements of the same shape and chain length are evaluated together under ``jax.vmap`` (one trace
+    per group keeps compile time flat in the number of elements).
+    """
     eps_m = problem.medium_index**2
-    pos, lams, axes, resid = [], [], [], []
+    groups: dict = {}
     for e in params.elements:
-        eps = jnp.asarray(problem.eps[e.material])
-        lam, _ = inverse_polarizability(e, eps, eps_m, k, correction=problem.model.correction)
-        rot = e.axes()
-        centre = jnp.array([e.center[0], e.center[1], e.height()]) * NM
-        n = problem.model.dipoles_per_rod if e.shape == "rod" else 1
+        groups.setdefault((e.shape, _chain_length(problem, e)), []).append(e)
+    pos, lams, axes, resid = [], [], [], []
+    for (_, n), elems in groups.items():
+        stacked = _stack(elems)
+        eps = jnp.stack([jnp.asarray(problem.eps[e.material]) for e in elems])  # (n_g, n_wl)
+
+        def lam_of(el, ep):
+            return inverse_polarizability(el, ep, eps_m, k, correction=problem.model.correction)[0]
+
+        lam = jax.vmap(lam_of)(stacked, eps)  # (n_g, n_wl, 3)
+        rot = jax.vmap(lambda el: el.axes())(stacked)  # (n_g, 3, 3)
+        centre = jnp.stack([stacked.center[:, 0], stacked.center[:, 1],
+                            jax.vmap(lambda el: el.height())(stacked)], axis=1) * NM  # (n_g, 3)
         if n == 1:
-            pos.append(centre[None])
-            lams.append(lam[:, None])
-            axes.append(rot[None])
+            pos.append(centre)
+            lams.append(jnp.swapaxes(lam, 0, 1))
+            axes.append(rot)
             continue
-        length = e.length * NM
-        lam_c, res = renormalise(lam, chain_coupling(n, length, k))
-        pos.append(centre[None] + chain_offsets(n, length)[:, None] * rot[:, 0][None])
-        lams.append(jnp.repeat(lam_c[:, None], n, axis=1))
-        axes.append(jnp.repeat(rot[None], n, axis=0))
-        resid.append(jnp.max(res, axis=1))
+        length = stacked.length * NM  # (n_g,)
+        lam_c, res = jax.vmap(lambda lr, ln: renormalise(lr, chain_coupling(n, ln, k)))(lam, length)
+        offsets = jax.vmap(lambda ln: chain_offsets(n, ln))(length)  # (n_g, n)
+        pos.append((centre[:, None] + offsets[..., None] * rot[:, None, :, 0]).reshape(-1, 3))
+        lams.append(jnp.swapaxes(jnp.repeat(lam_c, n, axis=0), 0, 1))
+        axes.append(jnp.repeat(rot, n, axis=0))
+        resid.append(jnp.max(res, axis=(0, 2)))
     residual = jnp.max(jnp.stack(resid), axis=0) if resid else jnp.zeros(k.shape)
     return jnp.concatenate(pos), jnp.concatenate(lams, axis=1), jnp.concatenate(axes), residual
-
 
 
 def response_from_params(params, problem: Problem) -> Response:

@@ -17,8 +17,9 @@ resonance exactly at a lossless pole) is reported through ``condition`` rather t
 """
 
 import jax.numpy as jnp
+import numpy as np
 
-from ._green import lattice_dyadic
+from ._green import lattice_dyadic, lattice_dyadic_pair
 
 
 def interaction_matrix(positions, lam, axes, k, kpar, lattice, plan):
@@ -38,9 +39,13 @@ def interaction_matrix(positions, lam, axes, k, kpar, lattice, plan):
     n_d = positions.shape[0]
     alpha_inv = lam - 1j * k**3 / (6 * jnp.pi)
     own = jnp.einsum("dab,db,dcb->dac", axes, alpha_inv, axes)  # R diag(α⁻¹) Rᵀ, (n_d, 3, 3)
-    rij = positions[:, None, :] - positions[None, :, :]
-    is_self = jnp.eye(n_d, dtype=bool)
-    coupling = lattice_dyadic(rij, is_self, k, kpar, lattice, plan)  # (n_d, n_d, 3, 3)
+    # every site has the same self term; each pair i < j is evaluated once for both directions
+    g_self = lattice_dyadic(jnp.zeros(3), jnp.asarray(True), k, kpar, lattice, plan)
+    coupling = jnp.broadcast_to(g_self, (n_d, n_d, 3, 3))
+    if n_d > 1:
+        iu, ju = np.triu_indices(n_d, 1)
+        g_plus, g_minus = lattice_dyadic_pair(positions[iu] - positions[ju], k, kpar, lattice, plan)
+        coupling = coupling.at[iu, ju].set(g_plus).at[ju, iu].set(g_minus)
     blocks = jnp.eye(n_d)[:, :, None, None] * own[:, None] - k**2 * coupling
     return blocks.transpose(0, 2, 1, 3).reshape(3 * n_d, 3 * n_d)
 

@@ -18,6 +18,7 @@ of R_D may be zero; R_D's third argument must be positive). Both functions are h
 R_F(λx, λy, λz) = λ^{-1/2} R_F and R_D(λ·) = λ^{-3/2} R_D, so any consistent length² unit works.
 """
 
+import jax
 import jax.numpy as jnp
 
 from .. import _jaxsetup  # noqa: F401
@@ -29,13 +30,16 @@ def carlson_rf(x, y, z):
     """Carlson's R_F(x, y, z), float64, broadcast shape of the inputs (units: length⁻¹ if x is length²)."""
     x, y, z = (jnp.asarray(v, dtype=jnp.float64) for v in (x, y, z))
     a0 = (x + y + z) / 3.0
-    a, xm, ym, zm = a0, x, y, z
-    scale = 1.0
-    for _ in range(_STEPS):
+
+    def step(_, carry):
+        xm, ym, zm, a = carry
         sx, sy, sz = jnp.sqrt(xm), jnp.sqrt(ym), jnp.sqrt(zm)
         lam = sx * sy + sy * sz + sz * sx
-        xm, ym, zm, a = (xm + lam) / 4.0, (ym + lam) / 4.0, (zm + lam) / 4.0, (a + lam) / 4.0
-        scale = scale / 4.0
+        return (xm + lam) / 4.0, (ym + lam) / 4.0, (zm + lam) / 4.0, (a + lam) / 4.0
+
+    x, y, z, a0 = jnp.broadcast_arrays(x, y, z, a0)
+    _, _, _, a = jax.lax.fori_loop(0, _STEPS, step, (x, y, z, a0))
+    scale = 4.0**-_STEPS
     X = (a0 - x) * scale / a
     Y = (a0 - y) * scale / a
     Z = -(X + Y)
@@ -49,15 +53,17 @@ def carlson_rd(x, y, z):
     """Carlson's R_D(x, y, z), float64, broadcast shape of the inputs (length⁻³ if x is length²)."""
     x, y, z = (jnp.asarray(v, dtype=jnp.float64) for v in (x, y, z))
     a0 = (x + y + 3.0 * z) / 5.0
-    a, xm, ym, zm = a0, x, y, z
-    scale = 1.0
-    tail = jnp.zeros_like(a0)
-    for _ in range(_STEPS):
+
+    def step(i, carry):
+        xm, ym, zm, a, tail = carry
         sx, sy, sz = jnp.sqrt(xm), jnp.sqrt(ym), jnp.sqrt(zm)
         lam = sx * sy + sy * sz + sz * sx
-        tail = tail + scale / (sz * (zm + lam))
-        xm, ym, zm, a = (xm + lam) / 4.0, (ym + lam) / 4.0, (zm + lam) / 4.0, (a + lam) / 4.0
-        scale = scale / 4.0
+        tail = tail + 4.0 ** (-i.astype(jnp.float64)) / (sz * (zm + lam))
+        return (xm + lam) / 4.0, (ym + lam) / 4.0, (zm + lam) / 4.0, (a + lam) / 4.0, tail
+
+    x, y, z, a0 = jnp.broadcast_arrays(x, y, z, a0)
+    *_, a, tail = jax.lax.fori_loop(0, _STEPS, step, (x, y, z, a0, jnp.zeros_like(a0)))
+    scale = 4.0**-_STEPS
     X = (a0 - x) * scale / a
     Y = (a0 - y) * scale / a
     Z = -(X + Y) / 3.0
