@@ -207,8 +207,8 @@ def _dipoles(params, problem: Problem, k):
             axes.append(rot)
             continue
         length = stacked.length * NM  # (n_g,)
-        lam_c, res = jax.vmap(lambda lr, ln: renormalise(lr, chain_coupling(n, ln, k)))(lam, length)
-        offsets = jax.vmap(lambda ln: chain_offsets(n, ln))(length)  # (n_g, n)
+        lam_c, res = jax.vmap(lambda lr, ln, n=n: renormalise(lr, chain_coupling(n, ln, k)))(lam, length)
+        offsets = jax.vmap(lambda ln, n=n: chain_offsets(n, ln))(length)  # (n_g, n)
         pos.append((centre[:, None] + offsets[..., None] * rot[:, None, :, 0]).reshape(-1, 3))
         lams.append(jnp.swapaxes(jnp.repeat(lam_c, n, axis=0), 0, 1))
         axes.append(jnp.repeat(rot, n, axis=0))
