@@ -28,7 +28,7 @@ come closer than the rod width and the renormalised Λ_c absorbs that inconsiste
 import jax
 import jax.numpy as jnp
 
-_NEWTON_STEPS = 12
+_NEWTON_STEPS = 40
 
 
 def chain_offsets(n: int, length_m):
