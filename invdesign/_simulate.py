@@ -27,6 +27,7 @@ from . import _jaxsetup  # noqa: F401
 from ._chain import chain_coupling, chain_offsets, renormalise
 from ._errors import InvdesignError
 from ._farfield import order_amplitudes
+from ._geometry import pair_gaps
 from ._lattice import Lattice, make_ewald_plan
 from ._polarizability import inverse_polarizability
 from ._solve import absorbed_fraction, interaction_matrix, plane_wave_at, solve_dipoles
@@ -40,18 +41,22 @@ class ModelOptions:
     """Choices of the fast model (static: changing one recompiles).
 
     Attributes:
-      dipoles_per_rod: dipoles per rod chain (1 = a single point dipole per rod), int ≥ 1.
+      dipoles_per_rod: dipoles per rod chain (1 = a single point dipole per rod), an int ≥ 1, or
+        "auto": per rod, the smallest odd N with L/N ≤ max(g, W) — dipole spacing no coarser than the
+        larger of the smallest gap g the rod faces (periodic images included) and its width W — capped
+        at 13 (``auto_chain_length``).
       correction: long-wavelength correction of the element polarizability: "radiative" (quasi-static
         plus radiative reaction), "kelly" or "moroz" (see ``invdesign._polarizability``).
     """
 
-    dipoles_per_rod: int = 1
+    dipoles_per_rod: int | str = 1
     correction: str = "kelly"
 
     def __post_init__(self):
-        if not isinstance(self.dipoles_per_rod, int) or self.dipoles_per_rod < 1:
+        ok_int = isinstance(self.dipoles_per_rod, int) and self.dipoles_per_rod >= 1
+        if not (ok_int or self.dipoles_per_rod == "auto"):
             raise InvdesignError(
-                f"model.dipoles_per_rod must be an integer ≥ 1, got {self.dipoles_per_rod!r}")
+                f"model.dipoles_per_rod must be an integer ≥ 1 or \"auto\", got {self.dipoles_per_rod!r}")
         if self.correction not in CORRECTIONS:
             raise InvdesignError(f"model.correction must be one of {', '.join(CORRECTIONS)}, "
                                  f"got {self.correction!r}")
@@ -125,6 +130,7 @@ class Problem:
     model: ModelOptions
     plan: object
     order_indices: np.ndarray
+    chain_lengths: tuple  # dipoles per element (1 for disks and spheres), static
 
 
 def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
@@ -153,7 +159,33 @@ def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
     r_max = 0.5 * (math.hypot(*a1) + math.hypot(*a2))  # bound on wrapped in-cell separations
     plan = make_ewald_plan(a1, a2, k_max, r_max_nm=r_max, kpar_max_per_m=kpar_max, scales=period_scales)
     orders = _propagating_orders(a1, a2, k_max, kpar_max, period_scales)
-    return Problem(wl, eps, n_med, incidence, model, plan, orders)
+    return Problem(wl, eps, n_med, incidence, model, plan, orders, chain_lengths(design, model))
+
+
+#: the largest chain the automatic rule picks
+AUTO_MAX_DIPOLES = 13
+
+
+def auto_chain_length(length_nm: float, width_nm: float, gap_nm: float) -> int:
+    """Smallest odd N with length/N ≤ max(gap, width), capped at ``AUTO_MAX_DIPOLES``."""
+    scale = max(gap_nm, width_nm)
+    n = max(1, math.ceil(length_nm / scale - 1e-9))
+    n = n + 1 if n % 2 == 0 else n
+    return min(n, AUTO_MAX_DIPOLES)
+
+
+def chain_lengths(design, model: ModelOptions) -> tuple:
+    """Dipoles per element for a design under ``model`` (rods only are resolved into chains)."""
+    els = design.elements
+    if model.dipoles_per_rod != "auto":
+        return tuple(model.dipoles_per_rod if e.shape == "rod" else 1 for e in els)
+    p = design.params
+    smallest = [math.inf] * len(els)
+    for i, j, gap in pair_gaps(els, np.asarray(p.a1), np.asarray(p.a2)):
+        smallest[i] = min(smallest[i], gap)
+        smallest[j] = min(smallest[j], gap)
+    return tuple(auto_chain_length(float(e.length), float(e.width), g) if e.shape == "rod" else 1
+                 for e, g in zip(els, smallest, strict=True))
 
 
 def _propagating_orders(a1, a2, k_max, kpar_max, scales) -> np.ndarray:
@@ -167,10 +199,6 @@ def _propagating_orders(a1, a2, k_max, kpar_max, scales) -> np.ndarray:
                 if np.linalg.norm(b @ np.array([i, j])) <= k_max + kpar_max:
                     found.add((i, j))
     return np.array(sorted(found, key=lambda t: (abs(t[0]) + abs(t[1]), t)), dtype=np.int64)
-
-
-def _chain_length(problem: Problem, element) -> int:
-    return problem.model.dipoles_per_rod if element.shape == "rod" else 1
 
 
 def _stack(elements):
@@ -187,8 +215,8 @@ def _dipoles(params, problem: Problem, k):
     """
     eps_m = problem.medium_index**2
     groups: dict = {}
-    for e in params.elements:
-        groups.setdefault((e.shape, _chain_length(problem, e)), []).append(e)
+    for e, n in zip(params.elements, problem.chain_lengths, strict=True):
+        groups.setdefault((e.shape, n), []).append(e)
     pos, lams, axes, resid = [], [], [], []
     for (_, n), elems in groups.items():
         stacked = _stack(elems)
