@@ -24,7 +24,7 @@ import jax.numpy as jnp
 import numpy as np
 
 from . import _jaxsetup  # noqa: F401
-from ._chain import chain_coupling, chain_offsets, renormalise
+from ._chain import chain_coupling, chain_offsets, intra_chain_correction, renormalise
 from ._errors import InvdesignError
 from ._farfield import order_amplitudes
 from ._geometry import pair_gaps
@@ -131,6 +131,7 @@ class Problem:
     plan: object
     order_indices: np.ndarray
     chain_lengths: tuple  # dipoles per element (1 for disks and spheres), static
+    shapes: tuple  # element shape names, static
 
 
 def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
@@ -159,7 +160,8 @@ def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
     r_max = 0.5 * (math.hypot(*a1) + math.hypot(*a2))  # bound on wrapped in-cell separations
     plan = make_ewald_plan(a1, a2, k_max, r_max_nm=r_max, kpar_max_per_m=kpar_max, scales=period_scales)
     orders = _propagating_orders(a1, a2, k_max, kpar_max, period_scales)
-    return Problem(wl, eps, n_med, incidence, model, plan, orders, chain_lengths(design, model))
+    return Problem(wl, eps, n_med, incidence, model, plan, orders, chain_lengths(design, model),
+                   tuple(e.shape for e in design.elements))
 
 
 #: the largest chain the automatic rule picks
@@ -205,6 +207,23 @@ def _stack(elements):
     """Stack same-class elements into one pytree with a leading axis (material names dropped)."""
     bare = [dataclasses.replace(e, material="") for e in elements]
     return jax.tree_util.tree_map(lambda *xs: jnp.stack([jnp.asarray(x, dtype=float) for x in xs]), *bare)
+
+
+def _dipole_order(problem: Problem):
+    """Element index and chain length of each dipole, in the order ``_dipoles`` emits them."""
+    groups: dict = {}
+    for idx, (e, n) in enumerate(zip(problem.shapes, problem.chain_lengths, strict=True)):
+        groups.setdefault((e, n), []).append(idx)
+    return [(idx, n) for (_, n), members in groups.items() for idx in members for _ in range(n)]
+
+
+def _same_chain_pairs(problem: Problem):
+    """Static (i, j), i < j, dipole pairs that belong to the same rod chain."""
+    owner = np.array([idx for idx, n in _dipole_order(problem)] or [0])
+    chained = np.array([n > 1 for _, n in _dipole_order(problem)] or [False])
+    i, j = np.triu_indices(len(owner), 1)
+    keep = (owner[i] == owner[j]) & chained[i]
+    return i[keep], j[keep]
 
 
 def _dipoles(params, problem: Problem, k):
@@ -265,11 +284,18 @@ def response_from_params(params, problem: Problem) -> Response:
     area = lattice.area()
     orders = jnp.asarray(problem.order_indices)
 
+    n_d = positions.shape[0]
+    pair_i, pair_j = _same_chain_pairs(problem)
+
     def one(args):
         k1, lam1 = args
         kvec = k1 * khat_in
         kpar = kvec[:2]
         mat = interaction_matrix(positions, lam1, axes, k1, kpar, lattice, problem.plan)
+        if pair_i.size:
+            corr = intra_chain_correction(positions, axes, pair_i, pair_j, k1)
+            blocks = jnp.zeros((n_d, n_d, 3, 3)).at[pair_i, pair_j].set(corr).at[pair_j, pair_i].set(corr)
+            mat = mat + blocks.transpose(0, 2, 1, 3).reshape(3 * n_d, 3 * n_d)
         p = solve_dipoles(mat, plane_wave_at(positions, kvec, pols))
         trans, refl, kz, prop = order_amplitudes(p, positions, k1, kpar, lattice, orders)
         kz_in = k1 * math.cos(th)
