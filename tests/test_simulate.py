@@ -155,3 +155,41 @@ def test_wavelength_outside_material_data_is_refused_early():
     })
     with pytest.raises(invdesign.MaterialError, match="fused_silica"):
         simulate(d, [150.0, 600.0])
+
+
+@pytest.mark.parametrize("material", [GOLD, LOSSLESS_METAL])
+def test_cross_polarised_transmission_obeys_the_single_sheet_ceiling(rng, material):
+    # A single sheet of electric dipoles in a homogeneous medium converts at most 25 % of the power
+    # to the crossed polarisation: |t_xy|² ≤ 1/4 (Arbabi & Faraon, Sci. Rep. 7, 43722 (2017);
+    # Monticone, Estakhri & Alù, Phys. Rev. Lett. 110, 203903 (2013)). Checked here on random cells of
+    # rods of one thickness (one sheet), lossy and lossless; the lossless ones should come close.
+    peaks = []
+    wl = np.linspace(600.0, 1500.0, 61)
+    made = 0
+    while made < 4:
+        rods = [rod(float(rng.uniform(-150, 150)), float(rng.uniform(-150, 150)),
+                    float(rng.uniform(100, 220)), float(rng.uniform(0, 180)), width=float(rng.uniform(30, 70)))
+                for _ in range(int(rng.integers(1, 4)))]
+        try:
+            d = cell(rods, material=material)
+        except invdesign.DesignError:
+            continue
+        made += 1
+        resp = simulate(d, wl)
+        peaks.append(np.max(np.abs(resp.t[:, 1, 0]) ** 2))
+        assert np.max(np.abs(resp.t[:, 1, 0]) ** 2) <= 0.25 + 1e-9
+        assert np.max(np.abs(resp.t[:, 0, 1]) ** 2) <= 0.25 + 1e-9
+    assert max(peaks) > 0.01  # the cells do convert some light
+
+
+def test_lossless_rod_at_45_degrees_reaches_the_ceiling():
+    # tightness of the same bound: a lossless rod sheet at its lattice-dressed resonance reflects the
+    # rod-axis polarisation completely (S_uu = -1), so at 45° t_xy = S_uu/2 and |t_xy|² = 1/4 exactly
+    # (same references as above; hand derivation: t = I + S, S = S_uu u uᵀ, u = (1, 1)/√2)
+    d = cell([rod(0, 0, 180, 45)], material=LOSSLESS_METAL)
+    wl = np.linspace(500.0, 1500.0, 201)
+    coarse = np.abs(simulate(d, wl).t[:, 1, 0]) ** 2
+    centre = wl[np.argmax(coarse)]
+    fine = np.linspace(centre - 6.0, centre + 6.0, 201)
+    peak = np.max(np.abs(simulate(d, fine).t[:, 1, 0]) ** 2)
+    assert abs(peak - 0.25) < 1e-4
