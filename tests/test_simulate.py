@@ -168,7 +168,8 @@ def test_cross_polarised_transmission_obeys_the_single_sheet_ceiling(rng, materi
     made = 0
     while made < 4:
         rods = [rod(float(rng.uniform(-150, 150)), float(rng.uniform(-150, 150)),
-                    float(rng.uniform(100, 220)), float(rng.uniform(0, 180)), width=float(rng.uniform(30, 70)))
+                    float(rng.uniform(100, 220)), float(rng.uniform(0, 180)),
+                    width=float(rng.uniform(30, 70)))
                 for _ in range(int(rng.integers(1, 4)))]
         try:
             d = cell(rods, material=material)
