@@ -16,7 +16,9 @@ from ._spectra_io import SAFETY_NOTE, plot_spectra, write_spectra
 
 def build_model(cfg) -> ModelOptions:
     """ModelOptions from the ``model`` config group."""
-    return ModelOptions(dipoles_per_rod=int(cfg.dipoles_per_rod), correction=str(cfg.correction))
+    n = cfg.dipoles_per_rod
+    n = "auto" if str(n) == "auto" else int(n)
+    return ModelOptions(dipoles_per_rod=n, correction=str(cfg.correction))
 
 
 def build_wavelengths(cfg) -> np.ndarray:
@@ -66,3 +68,90 @@ def simulate(cfg) -> None:
 
 def _dump(obj) -> str:
     return json.dumps(obj, indent=2)
+
+
+def optimize(cfg) -> None:
+    """``invdesign optimize spec=NAME fab=NAME cell=NAME`` (or ``resume=RUN_DIR``): a verified design."""
+    from . import _optimize as opt
+    from ._optimize_io import write_outputs
+    from ._spec import parse_cell, parse_fab, parse_spec
+
+    t_start = time.perf_counter()
+    resume = cfg.get("resume")
+    if resume:
+        out = pathlib.Path(str(resume)).expanduser()
+        saved = out / "run_config.yaml"
+        if not saved.is_file():
+            raise InvdesignError(f"resume={resume}: no run_config.yaml in that folder; give the folder of an "
+                                 f"earlier 'invdesign optimize' run (runs/optimize/<timestamp>)")
+        plain = OmegaConf.to_container(OmegaConf.load(saved), resolve=True)
+        plain["quiet"], plain["plot"] = bool(cfg.get("quiet", False)), bool(cfg.get("plot", True))
+    else:
+        out = _run_dir()
+        plain = OmegaConf.to_container(cfg, resolve=True)
+        plain["resume"] = None
+        atomic_write_text(out / "run_config.yaml", OmegaConf.to_yaml(OmegaConf.create(plain)))
+    spec = parse_spec(plain.get("spec"))
+    fab = parse_fab(plain.get("fab"))
+    cell = parse_cell(plain.get("cell"))
+    opts = opt.parse_run_options(plain, fab, plain.get("model", {}))
+    setup = opt.build_setup(spec, fab, cell, opts)
+    quiet = bool(plain.get("quiet", False))
+    print(f"optimize: spec '{spec.name}' ({len(spec.goals)} goals at {spec.operating_nm:g} nm), fab deck "
+          f"'{fab.name}' ({fab.label}), cell '{cell.name}' ({len(setup.family.names)} free parameters), "
+          f"{opts.starts} starts, {opts.optimizer}, up to {opts.steps} steps")
+    from ._convergence import model_label
+
+    print("goals must hold under every model of the robust set: "
+          + ", ".join(model_label(n, c) for n, c in opts.models)
+          + (f" (several resolutions: deck min gap {fab.min_gap_nm:g} nm < "
+             f"{opt.ROBUST_GAP_THRESHOLD_NM:g} nm)"
+             if len(opts.resolutions) > 1 else ""))
+    if resume:
+        print(f"resuming from {out}")
+    try:
+        result = opt.run(setup, out, quiet=quiet)
+    except opt.Interrupted as err:
+        print(f"optimize: {err}. Continue with: invdesign optimize resume={out}")
+        raise SystemExit(130) from None
+    final = opt.finish(setup, result)
+    meta = {"run_dir": str(out), "fingerprint": setup.fingerprint, "steps": result["steps"],
+            "stopped": result["stopped"], "optimise_seconds": round(result["seconds"], 2),
+            "total_seconds": round(time.perf_counter() - t_start, 2), "resolutions": list(opts.resolutions),
+            "robust_models": [f"{c}/N={n}" for n, c in opts.models],
+            "correction": opts.correction, "optimizer": opts.optimizer, "starts": opts.starts,
+            "seed": opts.seed,
+            "free_parameters": setup.family.describe(), "fab_deck": fab.name, "fab_label": fab.label,
+            "spec": spec.name, "cell": cell.name}
+    paths = write_outputs(setup, result, final, out, meta=meta, plot=bool(plain.get("plot", True)))
+    _print_verdict(setup, final, result)
+    for kind, p in paths.items():
+        print(f"wrote {kind}: {p}")
+    print(SAFETY_NOTE)
+
+
+def _print_verdict(setup, final, result) -> None:
+    from ._convergence import format_report
+    from ._optimize import misses
+
+    best = final["best_feasible"]
+    print(f"\n{result['steps']} steps ({result['stopped']}) in {result['seconds']:.1f} s")
+    if best is None:
+        print("NO FEASIBLE DESIGN: no start met every goal and rule after snapping and re-checking.")
+        best = final["best_infeasible"]
+        if best is None:
+            return
+        print("best infeasible design (written as design.json) misses:")
+        for m in misses(best):
+            print(f"  - {m}")
+    else:
+        print("FEASIBLE design (snapped to the grid, exact rules and a fresh simulation re-checked):")
+    for label, g in best["goals"].items():
+        unit = f" {g['unit']}" if g["unit"] else ""
+        print(f"  {label:<22} {g['sense']} {g['target']:<8g} achieved {g['achieved']:.4g}{unit} "
+              f"(worst: {g['at_resolution']})  {'pass' if g['pass'] else 'FAIL'}")
+    if best.get("report"):
+        print("convergence report:")
+        print(format_report(best["report"]))
+    if final["best_feasible"] is not None and final["best_infeasible"] is not None:
+        print("best infeasible candidate misses: " + "; ".join(misses(final["best_infeasible"])))

@@ -12,6 +12,7 @@ import sys
 
 _COMMANDS = {
     "simulate": "spectra of a design file: spectra.csv, spectra.json, spectra.png",
+    "optimize": "a verified cell for a spec and a fab deck: design.json, metrics.json, plots",
 }
 
 
