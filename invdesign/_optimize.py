@@ -229,6 +229,18 @@ def _window(wl: np.ndarray, i0: int, width: float) -> np.ndarray:
     return np.arange(first, last + 1)
 
 
+def goal_windows(spec: Spec, wl: np.ndarray, i0: int) -> tuple[tuple, tuple]:
+    """Per goal: the index window it is judged over (or None) and the depth it refers to (or None)."""
+    windows, depths = [], []
+    for g in spec.goals:
+        width = g.target if g.metric == "bandwidth_nm" else (
+            drift_window_nm(spec, g) if g.metric == "phase_drift_deg" else None)
+        windows.append(None if width is None else _window(wl, i0, width))
+        depths.append(g.depth if g.depth is not None else spec.depth_target()
+                      if g.metric in ("control_power_ratio", "bandwidth_nm") else None)
+    return tuple(windows), tuple(depths)
+
+
 def build_setup(spec: Spec, fab: FabDeck, cell: CellSpec, opts: RunOptions) -> Setup:
     """Check the three inputs together and build the static problems (nothing is compiled here)."""
     check_setup(spec, fab, cell)
@@ -242,13 +254,7 @@ def build_setup(spec: Spec, fab: FabDeck, cell: CellSpec, opts: RunOptions) -> S
     start_rules = [v for v in check_rules(start_design.params, fab) if v["rule"] == "overlap"]
     if start_rules:
         raise SpecError(f"cell: start rods overlap ({start_rules[0]['where']}); move them apart")
-    windows, depths = [], []
-    for g in spec.goals:
-        width = g.target if g.metric == "bandwidth_nm" else (
-            drift_window_nm(spec, g) if g.metric == "phase_drift_deg" else None)
-        windows.append(None if width is None else _window(wl, i0, width))
-        depths.append(g.depth if g.depth is not None else spec.depth_target()
-                      if g.metric in ("control_power_ratio", "bandwidth_nm") else None)
+    windows, depths = goal_windows(spec, wl, i0)
     s_lo, s_hi = family.period_scale_bounds
     scales = (s_lo, 1.0, s_hi)
     problems = tuple(prepare(start_design, wl, model=ModelOptions(n, c), period_scales=scales)
@@ -256,7 +262,7 @@ def build_setup(spec: Spec, fab: FabDeck, cell: CellSpec, opts: RunOptions) -> S
     doc = {"spec": dataclasses.asdict(spec), "fab": dataclasses.asdict(fab),
            "cell": dataclasses.asdict(cell), "opts": dataclasses.asdict(opts)}
     fp = hashlib.sha256(json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()[:16]
-    return Setup(spec, fab, cell, opts, family, wl, i0, tuple(windows), tuple(depths), problems,
+    return Setup(spec, fab, cell, opts, family, wl, i0, windows, depths, problems,
                  start_design, scales, fp)
 
 
