@@ -155,3 +155,77 @@ def _print_verdict(setup, final, result) -> None:
         print(format_report(best["report"]))
     if final["best_feasible"] is not None and final["best_infeasible"] is not None:
         print("best infeasible candidate misses: " + "; ".join(misses(final["best_infeasible"])))
+
+
+def _load_or_save_config(cfg, command: str):
+    """(run folder, plain config): a new run's folder and config, or a resumed run's saved ones."""
+    resume = cfg.get("resume")
+    if resume:
+        out = pathlib.Path(str(resume)).expanduser()
+        saved = out / "run_config.yaml"
+        if not saved.is_file():
+            raise InvdesignError(f"resume={resume}: no run_config.yaml in that folder; give the folder of an "
+                                 f"earlier 'invdesign {command}' run (runs/{command}/<timestamp>)")
+        plain = OmegaConf.to_container(OmegaConf.load(saved), resolve=True)
+        plain["quiet"], plain["plot"] = bool(cfg.get("quiet", False)), bool(cfg.get("plot", True))
+        return out, plain
+    out = _run_dir()
+    plain = OmegaConf.to_container(cfg, resolve=True)
+    plain["resume"] = None
+    atomic_write_text(out / "run_config.yaml", OmegaConf.to_yaml(OmegaConf.create(plain)))
+    return out, plain
+
+
+def tradeoff(cfg) -> None:
+    """``invdesign tradeoff objectives=[...] spec=NAME fab=NAME cell=NAME``: a fab-checked Pareto front."""
+    from . import _optimize as opt
+    from ._spec import parse_cell, parse_fab, parse_spec
+    from ._tradeoff import build_tradeoff, evaluate_front, run_front
+    from ._tradeoff_io import write_front
+
+    t_start = time.perf_counter()
+    out, plain = _load_or_save_config(cfg, "tradeoff")
+    spec = parse_spec(plain.get("spec"))
+    fab = parse_fab(plain.get("fab"))
+    cell = parse_cell(plain.get("cell"))
+    opts = opt.parse_run_options(plain, fab, plain.get("model", {}))
+    ts = build_tradeoff(spec, fab, cell, opts, plain.get("objectives"), plain.get("front"))
+    from ._convergence import model_label
+
+    print(f"tradeoff: spec '{spec.name}', objectives {', '.join(o.label() for o in ts.objectives)}; "
+          f"constraints: {', '.join(g.describe() for g in ts.base.spec.goals) or 'none'}")
+    print(f"  fab deck '{fab.name}', cell '{cell.name}' ({len(ts.base.family.names)} free parameters), "
+          f"{len(ts.weights)} weight vectors (divisions {ts.front.divisions}), batch of {ts.rows} rows; "
+          f"robust models: {', '.join(model_label(n, c) for n, c in opts.models)}")
+    if plain.get("resume"):
+        print(f"resuming from {out}")
+    try:
+        state = run_front(ts, out, quiet=bool(plain.get("quiet", False)))
+    except opt.Interrupted as err:
+        print(f"tradeoff: {err}. Continue with: invdesign tradeoff resume={out}")
+        raise SystemExit(130) from None
+    cands = evaluate_front(ts, state, with_report=bool(plain.get("report_each_point", True)))
+    meta = {"run_dir": str(out), "fingerprint": ts.fingerprint, "spec": spec.name, "fab_deck": fab.name,
+            "cell": cell.name, "robust_models": [model_label(n, c) for n, c in opts.models],
+            "sweep_seconds": round(float(state.get("seconds", 0.0)), 2),
+            "total_seconds": round(time.perf_counter() - t_start, 2), "seed": opts.seed,
+            "starts": opts.starts, "anchor_steps": opts.steps, "point_steps": ts.front.steps}
+    res = write_front(ts, state, cands, out, meta=meta, plot=bool(plain.get("plot", True)))
+    q = res["quality"]
+    print(f"\nfront: {q['points']} non-dominated feasible point(s) of {len(cands)} lattice points "
+          f"({int(state['evaluations'])} value-and-gradient evaluations, "
+          f"{time.perf_counter() - t_start:.1f} s in all)")
+    for p in res["front"]:
+        vals = ", ".join(f"{n} {v:.4g}" for n, v in p["objectives"].items())
+        tag = " (knee)" if p["knee"] else "       "
+        print(f"  point {p['point']:2d}{tag}  {vals}  -> {p['design_json']}")
+    if q["hypervolume"] is not None:
+        sp = "n/a" if q["spacing"] is None else f"{q['spacing']:.4g}"
+        ref = ", ".join(f"{n} {v:.4g}" for n, v in q["reference"].items())
+        print(f"hypervolume {q['hypervolume']:.6g} ({q['hypervolume_units']}; normalised "
+              f"{q['hypervolume_normalised']:.4g}) against reference [{ref}]; spacing {sp}")
+    else:
+        print("NO FEASIBLE POINT: every lattice point misses a constraint or a rule (see front.json)")
+    for kind, p in res["paths"].items():
+        print(f"wrote {kind}: {p}")
+    print(SAFETY_NOTE)

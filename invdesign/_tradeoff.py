@@ -1,0 +1,491 @@
+"""Trade-off fronts: 2–4 figures of merit as objectives, the spec's other goals as constraints.
+
+Objectives (``OBJECTIVES``; each evaluated at the operating wavelength λ0 unless stated; a maximised one
+is negated internally so that everything below is minimised):
+
+===================== ===== ===== ========================================================================
+name                  sense unit  meaning
+===================== ===== ===== ========================================================================
+insertion_loss_db     min   dB    −10·log10|a|² of the signal (``_metrics.insertion_loss_db``)
+control_power_ratio   min   1     ρ² needed for the depth (``_metrics.control_power_ratio_for_depth``)
+bandwidth_nm          max   nm    width of the band around λ0 where the fixed-phase depth, phases held at
+                                  their λ0 optimum, stays at or above the depth
+modulation_depth      max   1     peak-to-peak depth M at the spec's ρ
+leakage               min   1     L = I_c/I_s at the spec's ρ
+cross_pol_power       max   1     |J_yx|² (x in, y out) of the spec's matrix; ≤ 0.25 for a single sheet
+===================== ===== ===== ========================================================================
+
+The depth of ``control_power_ratio`` and ``bandwidth_nm`` is ``front.depth``, else the depth of the spec's
+goal on the same metric, else the spec's modulation-depth floor. ``bandwidth_nm`` is optimised through a
+smooth surrogate: with s_k = sigmoid((c_k − depth)/τ) for the held-phase depth c_k at sample k and
+τ = 0.05·depth, the band reaches sample j on the right of λ0 with weight Π_{k=i0..j} s_k, so the surrogate
+Σ_j Δλ_j Π_k s_k (and its mirror on the left) counts only a contiguous band; the front reports the exact
+width (``_metrics.band_above_threshold``).
+
+Scalarisation: augmented Tchebycheff (Steuer & Choo, Math. Program. 26, 326 (1983)),
+
+    s(u; w) = max_i w_i·g_i(u) + ϱ·Σ_i g_i(u),   g_i = (f_i(u) − z*_i)/span_i,
+
+over the weight vectors w of a simplex lattice (``_pareto.weight_lattice``), plus the constraints as in
+``optimize``: loss = s + μ·(Σ_g w_g relu(r_g + m)² + λ_rules·P), μ = ``front.constraint_weight``. Each f_i
+is the worst case over the robust model set (combined like the goals, ``_optimize.robust_combine``).
+
+The sweep, batched with ``jax.vmap`` over rows (one compiled step for the whole front):
+
+1. anchors: each lattice vertex (w = e_i, minimise objective i alone) from ``optimizer.starts`` starts (the
+   cell's and seeded random ones), ``optimizer.steps`` Adam steps; the payoff table of the anchors gives
+   the ideal point, the span (nadir − ideal) and z* = ideal − ``front.utopia_offset``·span;
+2. continuation: the other lattice points in waves (``_pareto.waves``), each warm-started from its nearest
+   solved neighbour, ``front.steps`` steps at ``front.lr_fraction`` of the learning rate; spare rows of a
+   batch carry extra warm starts jittered by ``front.jitter`` (unconstrained units, seeded);
+3. the best iterate of every lattice point is snapped, fab-checked and re-simulated exactly
+   (``_optimize.evaluate_candidate``); the front is the non-dominated set of the feasible ones.
+
+A checkpoint (``checkpoints/latest.npz``) is written after the anchors and after every wave, so a killed
+run resumes without redoing finished lattice points.
+"""
+
+import dataclasses
+import hashlib
+import json
+import math
+import time
+
+import jax
+import jax.numpy as jnp
+import numpy as np
+import optax
+
+from . import _checkpoint
+from . import _optimize as opt
+from ._errors import SpecError
+from ._metrics import (
+    band_above_threshold,
+    channel_amplitudes,
+    control_power_ratio_for_depth,
+    cross_polarised_power,
+    fixed_phase_depth,
+    insertion_loss_db,
+    leakage,
+    modulation_depth,
+)
+from ._pareto import waves, weight_lattice
+from ._penalties import rule_penalty
+from ._simulate import response_from_params
+from ._spec import _Reader
+
+#: name -> (sense, unit, default scale, meaning); the scale is one unit of change before the anchors set
+#: the spans (anchor scalarisations only), in the objective's unit
+OBJECTIVES = {
+    "insertion_loss_db": ("min", "dB", 1.0, "signal insertion loss at the operating wavelength"),
+    "control_power_ratio": ("min", "", 1.0, "control/signal power ratio rho^2 needed for the depth"),
+    "bandwidth_nm": ("max", "nm", 10.0, "band around the operating wavelength holding the depth"),
+    "modulation_depth": ("max", "", 1.0, "peak-to-peak modulation depth at the spec's rho"),
+    "leakage": ("min", "", 0.1, "control leakage I_c/I_s at the spec's rho"),
+    "cross_pol_power": ("max", "", 0.1, "|J_yx|^2 (x in, y out) at the operating wavelength"),
+}
+NEEDS_DEPTH = ("control_power_ratio", "bandwidth_nm")
+BAND_SOFTNESS = 0.05  # τ / depth of the smooth band surrogate
+
+
+@dataclasses.dataclass(frozen=True)
+class Objective:
+    name: str
+    sense: str
+    unit: str
+    scale: float
+    depth: float | None
+
+    @property
+    def sign(self) -> float:
+        """+1 for a minimised objective, −1 for a maximised one (oriented value = sign · value)."""
+        return 1.0 if self.sense == "min" else -1.0
+
+    def label(self) -> str:
+        unit = f" ({self.unit})" if self.unit else ""
+        return f"{self.name}{unit}, {'lower' if self.sense == 'min' else 'higher'} is better"
+
+
+@dataclasses.dataclass(frozen=True)
+class FrontOptions:
+    """The ``front`` config section (see the module docstring and conf/tradeoff.yaml)."""
+
+    divisions: int
+    steps: int
+    lr_fraction: float
+    augmentation: float
+    constraint_weight: float
+    utopia_offset: float
+    jitter: float
+    reference: tuple | None
+    reference_offset: float
+    depth: float | None
+
+
+_FRONT_KEYS = {
+    "divisions": "'auto' or the simplex-lattice divisions H (>= 1): C(H+m-1, m-1) weight vectors",
+    "steps": "Adam steps per warm-started lattice point (>= 1)",
+    "lr_fraction": "peak learning rate of a warm-started point as a fraction of optimizer.learning_rate",
+    "augmentation": "the augmentation coefficient of the Tchebycheff scalarisation (>= 0)",
+    "constraint_weight": "weight of the constraint and rule penalty against the scalarisation (> 0)",
+    "utopia_offset": "z* = ideal - utopia_offset * span (>= 0)",
+    "jitter": "spread of extra warm starts in unconstrained units (>= 0)",
+    "reference": "'auto' or a list of one reference value per objective, in the objectives' units",
+    "reference_offset": "auto reference = worst front value + reference_offset * front range (> 0)",
+    "depth": "modulation depth that control_power_ratio / bandwidth_nm objectives refer to (> 0)",
+}
+AUTO_DIVISIONS = {2: 8, 3: 4, 4: 3}
+
+
+def parse_objectives(raw, spec, depth: float | None) -> tuple:
+    """``Objective`` tuple from the ``objectives`` list; ``SpecError`` naming the key on any mistake."""
+    if (not isinstance(raw, (list, tuple)) or not 2 <= len(raw) <= 4
+            or any(not isinstance(x, str) for x in raw)):
+        raise SpecError(f"objectives must be a list of 2 to 4 names from: {', '.join(OBJECTIVES)}; "
+                        f"got {raw!r}")
+    if len(set(raw)) != len(raw):
+        raise SpecError(f"objectives: each objective may appear once, got {list(raw)}")
+    out = []
+    for i, name in enumerate(raw):
+        if name not in OBJECTIVES:
+            raise SpecError(f"objectives[{i}] = {name!r} is not an objective; use one of: "
+                            f"{', '.join(OBJECTIVES)}")
+        sense, unit, scale, _ = OBJECTIVES[name]
+        d = None
+        if name in NEEDS_DEPTH:
+            own = [g.depth for g in spec.goal(name) if g.depth is not None]
+            d = depth if depth is not None else own[0] if own else spec.depth_target()
+            if d is None or not d > 0:
+                raise SpecError(f"objectives[{i}] = {name}: needs the modulation depth it refers to; set "
+                                f"front.depth or give the spec a modulation_depth goal with sense '>='")
+        out.append(Objective(name, sense, unit, scale, d))
+    return tuple(out)
+
+
+def parse_front(doc, n_objectives: int) -> FrontOptions:
+    r = _Reader(doc if doc is not None else {}, "front", _FRONT_KEYS)
+    div = r.raw("divisions", "auto")
+    if div == "auto":
+        div = AUTO_DIVISIONS[n_objectives]
+    elif isinstance(div, bool) or not isinstance(div, int) or div < 1:
+        raise SpecError(f"front.divisions must be 'auto' or a whole number >= 1, got {div!r}")
+    ref = r.raw("reference", "auto")
+    if ref == "auto":
+        ref = None
+    elif (not isinstance(ref, (list, tuple)) or len(ref) != n_objectives
+          or any(isinstance(x, bool) or not isinstance(x, (int, float)) or not math.isfinite(x)
+                 for x in ref)):
+        raise SpecError(f"front.reference must be 'auto' or a list of {n_objectives} finite numbers (one per "
+                        f"objective, in its unit), got {ref!r}")
+    else:
+        ref = tuple(float(x) for x in ref)
+    return FrontOptions(
+        divisions=int(div), steps=r.number("steps", 40, integer=True, minimum=1),
+        lr_fraction=r.number("lr_fraction", 0.5, positive=True),
+        augmentation=r.number("augmentation", 0.01, minimum=0.0),
+        constraint_weight=r.number("constraint_weight", 20.0, positive=True),
+        utopia_offset=r.number("utopia_offset", 0.01, minimum=0.0),
+        jitter=r.number("jitter", 0.3, minimum=0.0), reference=ref,
+        reference_offset=r.number("reference_offset", 0.1, positive=True),
+        depth=r.number("depth", None, positive=True))
+
+
+def constraint_spec(spec, objectives):
+    """The spec with the objectives' goals removed and every remaining goal's depth made explicit."""
+    names = {o.name for o in objectives}
+    depth = spec.depth_target()
+    goals = tuple(dataclasses.replace(g, depth=g.depth if g.depth is not None else depth)
+                  if g.metric in NEEDS_DEPTH else g for g in spec.goals if g.metric not in names)
+    return dataclasses.replace(spec, goals=goals)
+
+
+# ------------------------------------------------------------------------------------------ setup
+@dataclasses.dataclass(frozen=True, eq=False)
+class TradeSetup:
+    """The constraint problem (an optimiser ``Setup``), the objectives, the weight lattice."""
+
+    base: opt.Setup
+    objectives: tuple
+    front: FrontOptions
+    lattice: np.ndarray     # (n_points, m) integers summing to divisions
+    weights: np.ndarray     # (n_points, m)
+    fingerprint: str
+
+    @property
+    def names(self) -> tuple:
+        return tuple(o.name for o in self.objectives)
+
+    @property
+    def vertices(self) -> np.ndarray:
+        return np.flatnonzero(self.lattice.max(axis=1) == self.front.divisions)
+
+    @property
+    def rows(self) -> int:
+        """Rows of one vmapped batch: the anchors with all their starts."""
+        return len(self.objectives) * self.base.opts.starts
+
+
+def build_tradeoff(spec, fab, cell, opts: opt.RunOptions, objectives_raw, front_doc) -> TradeSetup:
+    """Check everything and build the static problems (nothing compiled)."""
+    if opts.optimizer != "adam":
+        raise SpecError(f"optimizer.name = {opts.optimizer!r}: the front sweep steps every lattice point "
+                        f"with Adam in one batch; use optimizer.name=adam")
+    front = parse_front(front_doc, len(objectives_raw) if isinstance(objectives_raw, (list, tuple)) else 2)
+    objectives = parse_objectives(objectives_raw, spec, front.depth)
+    base = opt.build_setup(constraint_spec(spec, objectives), fab, cell, opts)
+    lat, w = weight_lattice(len(objectives), front.divisions)
+    doc = {"base": base.fingerprint, "objectives": [dataclasses.asdict(o) for o in objectives],
+           "front": dataclasses.asdict(front)}
+    fp = hashlib.sha256(json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()[:16]
+    return TradeSetup(base, objectives, front, lat, w, fp)
+
+
+# ------------------------------------------------------------------------------------- objectives
+def _channel(resp, spec, xp):
+    J = resp.t if spec.matrix == "t" else resp.r
+    a, b = channel_amplitudes(J, spec.signal, spec.control, spec.analyzer)
+    return J, xp.asarray(a), xp.asarray(b)
+
+
+def _held_curve(a, b, i0, rho, xp):
+    held = xp.angle(a[i0] * xp.conj(b[i0])) + xp.pi
+    return fixed_phase_depth(a, b, rho, held)
+
+
+def smooth_objectives(resp, ts: TradeSetup) -> jax.Array:
+    """Oriented (minimised) objective values (m,) of one response, pure JAX (the band as a surrogate)."""
+    setup, spec = ts.base, ts.base.spec
+    J, a, b = _channel(resp, spec, jnp)
+    i0, wl = setup.i0, setup.wavelengths
+    out = []
+    for o in ts.objectives:
+        if o.name == "insertion_loss_db":
+            v = insertion_loss_db(a[i0])
+        elif o.name == "control_power_ratio":
+            v = control_power_ratio_for_depth(a[i0], b[i0], o.depth)
+        elif o.name == "modulation_depth":
+            v = modulation_depth(a[i0], b[i0], spec.rho)
+        elif o.name == "leakage":
+            v = leakage(a[i0], b[i0], spec.rho)
+        elif o.name == "cross_pol_power":
+            v = cross_polarised_power(J[i0])[0]
+        else:  # bandwidth_nm
+            s = jax.nn.sigmoid((_held_curve(a, b, i0, spec.rho, jnp) - o.depth) / (BAND_SOFTNESS * o.depth))
+            right = jnp.cumprod(s[i0:])[1:] @ jnp.asarray(np.diff(wl[i0:]))
+            left = jnp.cumprod(s[: i0 + 1][::-1])[1:] @ jnp.asarray(-np.diff(wl[: i0 + 1][::-1]))
+            v = right + left
+        out.append(o.sign * v)
+    return jnp.stack(out)
+
+
+def exact_objectives(resp, ts: TradeSetup) -> np.ndarray:
+    """Objective values (m,) in their own units (not oriented) of a concrete response, band exactly."""
+    setup, spec = ts.base, ts.base.spec
+    J, a, b = _channel(jax.tree_util.tree_map(np.asarray, resp), spec, np)
+    out = []
+    for o in ts.objectives:
+        if o.name == "bandwidth_nm":
+            curve = np.asarray(_held_curve(a, b, setup.i0, spec.rho, np))
+            curve = np.nan_to_num(curve, nan=-np.inf, neginf=-1e300, posinf=1e300)
+            v = band_above_threshold(setup.wavelengths, curve, spec.operating_nm, o.depth).width_nm
+        else:
+            v = o.sign * float(np.asarray(smooth_objectives(resp, ts))[ts.names.index(o.name)])
+        out.append(float(v))
+    return np.asarray(out)
+
+
+def make_front_loss(ts: TradeSetup):
+    """loss(u, w, z, span) -> (loss, aux): the penalised augmented Tchebycheff scalarisation of one row."""
+    setup, fr = ts.base, ts.front
+    has_goals = len(setup.spec.goals) > 0
+
+    def loss_fn(u, w, z, span):
+        params = setup.family.params(u)
+        resps = [response_from_params(params, pb) for pb in setup.problems]
+        f = opt.robust_combine(jnp.stack([smooth_objectives(r, ts) for r in resps]), setup.opts.temperature)
+        g = (f - z) / span
+        scal = jnp.max(w * g) + fr.augmentation * jnp.sum(g)
+        if has_goals:
+            worst = opt.robust_combine(jnp.stack([opt.goal_shortfalls(r, setup) for r in resps]),
+                                       setup.opts.temperature)
+            cons = opt.goal_loss(worst, setup)
+        else:
+            cons = jnp.zeros(())
+        pen, _ = rule_penalty(params, setup.fab, setup.opts.gap_margin_nm)
+        total = scal + fr.constraint_weight * (cons + setup.opts.rules_weight * pen)
+        return total, {"objectives": f, "constraints": cons, "penalty": pen}
+
+    return loss_fn
+
+
+_COMPILED = {}
+
+
+def compiled_front_step(ts: TradeSetup):
+    """(init, step): Adam direction with a per-row learning rate, jitted and vmapped over rows."""
+    if ts.fingerprint in _COMPILED:
+        return _COMPILED[ts.fingerprint]
+    loss_fn = make_front_loss(ts)
+    adam = optax.scale_by_adam()
+
+    def one_step(u, state, w, z, span, lr):
+        (loss, aux), g = jax.value_and_grad(loss_fn, has_aux=True)(u, w, z, span)
+        g = jnp.where(jnp.isfinite(g), g, 0.0)
+        direction, state = adam.update(g, state, u)
+        return u - lr * direction, state, loss, aux
+
+    pair = (jax.jit(jax.vmap(adam.init)), jax.jit(jax.vmap(one_step)))
+    _COMPILED[ts.fingerprint] = pair
+    return pair
+
+
+# ------------------------------------------------------------------------------------------ sweep
+def _schedule(opts: opt.RunOptions, peak: float, steps: int, warmup: int):
+    return optax.warmup_cosine_decay_schedule(
+        init_value=peak * 0.1, peak_value=peak, warmup_steps=max(warmup, 1),
+        decay_steps=max(steps, warmup + 1), end_value=peak * opts.final_lr_fraction)
+
+
+def _phase(ts, u0, w, z, span, steps, peak, warmup, flag):
+    """Run one batch (rows of u0) for ``steps``; returns best u, loss and oriented objectives per row."""
+    init_fn, step_fn = compiled_front_step(ts)
+    sched = _schedule(ts.base.opts, peak, steps, warmup)
+    u, state = jnp.asarray(u0), init_fn(jnp.asarray(u0))
+    rows = len(u0)
+    zb, sb = jnp.broadcast_to(z, w.shape), jnp.broadcast_to(span, w.shape)
+    best_u, best_loss = np.asarray(u0).copy(), np.full(rows, np.inf)
+    best_f = np.full(w.shape, np.inf)
+    for s in range(steps):
+        u_prev = np.asarray(u)
+        lr = jnp.full(rows, float(sched(s)))
+        u, state, loss, aux = step_fn(u, state, jnp.asarray(w), zb, sb, lr)
+        loss = np.asarray(loss)
+        finite = np.where(np.isfinite(loss), loss, np.inf)
+        better = finite < best_loss
+        best_u = np.where(better[:, None], u_prev, best_u)
+        best_loss = np.where(better, finite, best_loss)
+        best_f = np.where(better[:, None], np.asarray(aux["objectives"]), best_f)
+        if flag.requested:
+            raise opt.Interrupted(f"stopped by {flag.requested}; finished lattice points are checkpointed")
+    return best_u, best_loss, best_f
+
+
+def _save(run_dir, ts, state):
+    arrays = {k: np.asarray(v) for k, v in state.items() if k != "phases"}
+    _checkpoint.save(run_dir, arrays, {"fingerprint": ts.fingerprint, "phases": state["phases"]})
+
+
+def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves: int | None = None) -> dict:
+    """The whole sweep (anchors, then continuation waves), resuming from the run folder's checkpoint.
+
+    ``stop_after_waves``: return after this many waves past the anchors without finishing (tests use it
+    to imitate a kill between waves). Returns the state dict: per lattice point ``u``, ``loss``, ``f``
+    (oriented smooth objectives at the best iterate) and ``done``, plus ``z``, ``span``, ``evaluations``.
+    """
+    setup, fr, opts = ts.base, ts.front, ts.base.opts
+    n, m = ts.weights.shape
+    nfree = len(setup.family.names)
+    saved = _checkpoint.load(run_dir, ts.fingerprint)
+    if saved is None:
+        state = {"u": np.zeros((n, nfree)), "loss": np.full(n, np.inf), "f": np.full((n, m), np.inf),
+                 "done": np.zeros(n, bool), "z": np.zeros(m), "span": np.ones(m),
+                 "evaluations": np.zeros((), int), "phases": []}
+    else:
+        arrays, header = saved
+        state = dict(arrays)
+        state["phases"] = list(header["phases"])
+    scales = np.array([o.scale for o in ts.objectives])
+    t0 = time.perf_counter()
+    rows = ts.rows
+    say = (lambda *a: None) if quiet else (lambda msg: print(msg, flush=True))
+    with _checkpoint.StopFlag() as flag:
+        verts = ts.vertices
+        if not state["done"][verts].all():
+            starts = opt.initial_starts(setup)  # (starts, nfree)
+            u0 = np.concatenate([starts] * m)
+            w = np.repeat(ts.weights[verts], opts.starts, axis=0)
+            t = time.perf_counter()
+            bu, bl, bf = _phase(ts, u0, w, np.zeros(m), scales, opts.steps, opts.learning_rate,
+                                opts.warmup_steps, flag)
+            for i, v in enumerate(verts):
+                k = i * opts.starts + int(np.argmin(bl[i * opts.starts:(i + 1) * opts.starts]))
+                state["u"][v], state["loss"][v], state["f"][v] = bu[k], bl[k], bf[k]
+                state["done"][v] = True
+            payoff = state["f"][verts]
+            ideal, nadir = payoff.min(axis=0), payoff.max(axis=0)
+            span = np.maximum(nadir - ideal, 1e-3 * scales)
+            state["span"] = span
+            state["z"] = ideal - fr.utopia_offset * span
+            state["evaluations"] = state["evaluations"] + rows * opts.steps
+            state["phases"].append({"phase": "anchors", "points": [int(v) for v in verts],
+                                    "rows": rows, "steps": opts.steps,
+                                    "seconds": round(time.perf_counter() - t, 2)})
+            _save(run_dir, ts, state)
+            say(f"  anchors: {m} objectives x {opts.starts} starts, {opts.steps} steps "
+                f"({time.perf_counter() - t:.1f} s)")
+        plan = waves(ts.lattice, np.isin(np.arange(n), verts))
+        chunks = [wave[i:i + rows] for wave in plan for i in range(0, len(wave), rows)]
+        done_waves = 0
+        for ci, chunk in enumerate(chunks):
+            if all(state["done"][p] for p, _ in chunk):
+                continue
+            if stop_after_waves is not None and done_waves >= stop_after_waves:
+                return {**state, "interrupted": True}
+            t = time.perf_counter()
+            rng = np.random.default_rng([opts.seed, ci])
+            idx = [chunk[r % len(chunk)] for r in range(rows)]
+            u0 = np.stack([state["u"][src] for _, src in idx])
+            copy = np.arange(rows) // len(chunk)
+            u0 = u0 + (copy > 0)[:, None] * fr.jitter * rng.standard_normal(u0.shape)
+            w = np.stack([ts.weights[p] for p, _ in idx])
+            bu, bl, bf = _phase(ts, u0, w, state["z"], state["span"], fr.steps,
+                                opts.learning_rate * fr.lr_fraction, max(1, fr.steps // 10), flag)
+            for p, _ in chunk:
+                mine = [r for r in range(rows) if idx[r][0] == p]
+                k = mine[int(np.argmin(bl[mine]))]
+                state["u"][p], state["loss"][p], state["f"][p] = bu[k], bl[k], bf[k]
+                state["done"][p] = True
+            state["evaluations"] = state["evaluations"] + rows * fr.steps
+            state["phases"].append({"phase": f"wave {ci + 1}", "points": [p for p, _ in chunk],
+                                    "warm_from": [s for _, s in chunk], "rows": rows, "steps": fr.steps,
+                                    "seconds": round(time.perf_counter() - t, 2)})
+            _save(run_dir, ts, state)
+            done_waves += 1
+            say(f"  wave {ci + 1}/{len(chunks)}: {len(chunk)} point(s), {fr.steps} steps "
+                f"({time.perf_counter() - t:.1f} s)")
+    state["seconds"] = time.perf_counter() - t0
+    return state
+
+
+# ----------------------------------------------------------------------------------- evaluation
+def evaluate_front(ts: TradeSetup, state: dict, *, with_report: bool = True) -> list[dict]:
+    """Snap, fab-check and re-simulate every lattice point (``evaluate_candidate``) and add its exact
+    objective values: the worst case over the robust models, per objective."""
+    setup = ts.base
+    keys = list(setup.opts.models)
+    if with_report:
+        keys += [(n, c) for c in setup.opts.report_corrections for n in setup.opts.report_resolutions]
+    opt.precompile(setup, keys)
+    out = []
+    for p in range(len(ts.weights)):
+        c = opt.evaluate_candidate(setup, state["u"][p], with_report=with_report)
+        c["point"], c["weight"], c["loss"] = p, ts.weights[p].tolist(), float(state["loss"][p])
+        values = np.asarray(setup.family.values(jnp.asarray(state["u"][p])))
+        c["parameters"] = {k: float(v) for k, v in zip(setup.family.names, values, strict=True)}
+        if c.get("design") is None:
+            c["objectives"], c["per_model"] = None, {}
+        else:
+            per = {label: exact_objectives(resp, ts) for label, resp in c["responses"].items()}
+            vals = np.stack(list(per.values()))
+            signs = np.array([o.sign for o in ts.objectives])
+            worst = np.where(signs > 0, vals.max(axis=0), vals.min(axis=0))
+            c["objectives"] = dict(zip(ts.names, (float(v) for v in worst), strict=True))
+            c["per_model"] = {label: dict(zip(ts.names, (float(x) for x in v), strict=True))
+                              for label, v in per.items()}
+        out.append(c)
+    return out
+
+
+def oriented(ts: TradeSetup, values) -> np.ndarray:
+    """(n, m) minimised form of objective values (n, m) in their own units."""
+    return np.asarray(values, float) * np.array([o.sign for o in ts.objectives])
