@@ -229,3 +229,66 @@ def tradeoff(cfg) -> None:
     for kind, p in res["paths"].items():
         print(f"wrote {kind}: {p}")
     print(SAFETY_NOTE)
+
+
+def export(cfg) -> None:
+    """``invdesign export design=PATH layout=NAME [fab=NAME] [force=true]``: GDSII/OASIS plus a traveller."""
+    from ._layout import format_violation, plan_layout, refuse_unless_forced
+    from ._layout_options import LayoutError, parse_layout
+    from ._layout_traveller import exposure, plot_cell, traveller_text
+    from ._layout_write import write_layout
+    from ._spec import parse_fab
+
+    if not cfg.get("design"):
+        raise LayoutError("design=PATH is required: the design file to export (e.g. "
+                          "design=runs/optimize/<timestamp>/design.json or examples/kestrel_cross_pair.json)")
+    force = cfg.get("force", False)
+    if not isinstance(force, bool):
+        raise LayoutError(f"force must be true or false, got {force!r}")
+    stem = str(cfg.get("stem", "layout"))
+    if not stem or "/" in stem or stem.startswith("."):
+        raise LayoutError(f"stem must be a plain file name without '/' or a leading '.', got {stem!r}")
+    path = pathlib.Path(str(cfg.design)).expanduser()
+    design = Design.from_json(path)
+    fab = parse_fab(OmegaConf.to_container(cfg.fab, resolve=True))
+    opts = parse_layout(OmegaConf.to_container(cfg.layout, resolve=True))
+    _note_deck_mismatch(path, fab.name)
+    plan = plan_layout(design, fab, opts)
+    refuse_unless_forced(plan, force)
+    out = _run_dir()
+    files = write_layout(plan, out, stem=stem)
+    png = None
+    if cfg.get("plot", True):
+        plot_cell(plan, out / "cell.png")
+        png = "cell.png"
+    design.to_json(out / "design.json")
+    atomic_write_text(out / "config.yaml", OmegaConf.to_yaml(cfg))
+    atomic_write_text(out / "traveller.md", traveller_text(plan, files, design_path=str(path), forced=force,
+                                                           png=png))
+    exp = exposure(plan)
+    fw, fh = plan.field_um
+    print(f"export: '{design.name or path.name}' under fab deck '{fab.name}' and layout '{opts.name}': "
+          f"{plan.n1} x {plan.n2} cells ({fw:.2f} x {fh:.2f} um), {len(plan.elements)} shapes per cell, "
+          f"grid {plan.grid_nm:g} nm; beam-on estimate {exp['seconds']:.4g} s")
+    if plan.violations:
+        print(f"WRITTEN DESPITE {len(plan.violations)} VIOLATION(S) (force=true); listed in traveller.md:")
+        for v in plan.violations:
+            print(f"  - {format_violation(v)}")
+    written = {**files, "traveller": out / "traveller.md", **({"png": out / png} if png else {})}
+    for kind, p in written.items():
+        print(f"wrote {kind}: {p}")
+    print(SAFETY_NOTE)
+
+
+def _note_deck_mismatch(design_path: pathlib.Path, fab_name: str) -> None:
+    """Say so when the design comes from an optimise run made for a different fab deck."""
+    saved = design_path.parent / "run_config.yaml"
+    if not saved.is_file():
+        return
+    try:
+        made_for = OmegaConf.load(saved).get("fab", {}).get("name")
+    except Exception:  # an unreadable neighbour file is no reason to stop an export
+        return
+    if made_for and made_for != fab_name:
+        print(f"note: this design was optimised for fab deck '{made_for}'; exporting under '{fab_name}' "
+              f"(pass fab={made_for} to use that deck)")

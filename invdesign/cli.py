@@ -13,6 +13,7 @@ import sys
 _COMMANDS = {
     "simulate": "spectra of a design file: spectra.csv, spectra.json, spectra.png",
     "optimize": "a verified cell for a spec and a fab deck: design.json, metrics.json, plots",
+    "export": "GDSII and OASIS layout of a design plus a fab traveller: layout.gds, layout.oas, traveller.md",
     "tradeoff": "a fab-checked Pareto front of 2-4 objectives: front.csv, front.json, front.png",
     "gather": "one table and plot of a sweep's runs (sweep=DIR): summary.csv, summary.png",
 }
