@@ -9,7 +9,8 @@ dict written by hand), each turned into a frozen dataclass:
   ``=``), a target and a weight.
 * ``FabDeck`` (``conf/fab/*.yaml``): film thickness(es), rod width and length ranges, minimum
   edge-to-edge gap (inside the cell and across the periodic boundary), maximum aspect ratio, corner
-  radius, placement grid, angle step and period range.
+  radius, placement grid, angle step and period range; optionally a ``tolerance`` block (``FabTolerance``):
+  the standard deviations of the fab's Gaussian errors, run-to-run (global) and element-to-element (local).
 * ``CellSpec`` (``conf/cell/*.yaml``): the cell family and its start values; which parameters are free.
 
 Every mistake raises ``SpecError`` naming the key (``spec.goals[1].sense``) and what would be valid, before
@@ -150,6 +151,40 @@ class Spec:
         return max(lows) if lows else None
 
 
+#: tolerance block: quantity key -> (meaning, unit, components it accepts)
+TOLERANCE_QUANTITIES = {
+    "width_nm": ("rod width (disk diameter)", "nm", ("global", "local")),
+    "length_nm": ("rod length", "nm", ("global", "local")),
+    "position_nm": ("element centre, each of x and y", "nm", ("local",)),
+    "angle_deg": ("rod angle", "deg", ("global", "local")),
+    "thickness_nm": ("metal film thickness", "nm", ("global", "local")),
+    "corner_radius_nm": ("corner rounding radius", "nm", ("global", "local")),
+}
+
+
+@dataclasses.dataclass(frozen=True)
+class FabTolerance:
+    """Standard deviations (1σ) of the fab's Gaussian errors: ``sigma[(quantity, component)]``.
+
+    quantity is a ``TOLERANCE_QUANTITIES`` key (unit in its name: nm or deg); component is ``global``
+    (one draw per fabrication run, shared by every element) or ``local`` (an independent draw per
+    element). Missing entries are 0. The error model itself is stated in ``invdesign._tolerance``.
+    """
+
+    label: str
+    sigma: tuple = ()   # ((quantity, component, σ), ...) in TOLERANCE_QUANTITIES order
+
+    def get(self, quantity: str, component: str) -> float:
+        for q, c, v in self.sigma:
+            if q == quantity and c == component:
+                return v
+        return 0.0
+
+    def combined(self, quantity: str) -> float:
+        """sqrt(σ_global² + σ_local²): the total spread of one element's value."""
+        return math.hypot(self.get(quantity, "global"), self.get(quantity, "local"))
+
+
 @dataclasses.dataclass(frozen=True)
 class FabDeck:
     """A fab rule deck, lengths in nm."""
@@ -168,6 +203,7 @@ class FabDeck:
     angle_step_deg: float
     period_min_nm: float
     period_max_nm: float
+    tolerance: FabTolerance | None = None
 
 
 @dataclasses.dataclass(frozen=True)
@@ -483,7 +519,41 @@ _FAB_KEYS = {
     "grid_nm": "placement grid (beam step) in nm: centres, lengths, widths and periods snap to it",
     "angle_step_deg": "rod angles snap to multiples of this, degrees",
     "period_nm": "{min, max} lattice period in nm",
+    "tolerance": "fabrication error, 1σ of Gaussian errors: {label, width_nm: {global, local}, length_nm, "
+                 "position_nm: {local}, angle_deg, thickness_nm, corner_radius_nm}",
 }
+_TOL_COMPONENTS = {"global": "1σ of the run-to-run error shared by every element (>= 0)",
+                   "local": "1σ of the element-to-element error, independent per element (>= 0)"}
+#: a perturbed size stays positive with overwhelming probability when its combined 1σ is at most this
+#: fraction of the deck's smallest value (5σ from zero: a chance below 3e-7 per element)
+TOLERANCE_MAX_RELATIVE = 0.2
+
+
+def _parse_tolerance(r: _Reader, sizes: dict) -> FabTolerance:
+    """The deck's ``tolerance`` block; ``sizes``: quantity -> the deck's smallest value of it (nm)."""
+    known = {"label": "where the values come from (e.g. 'typical values, common practice, no source')"}
+    known.update({q: f"{{global, local}} 1σ of the {m}, {u}"
+                  for q, (m, u, _) in TOLERANCE_QUANTITIES.items()})
+    t = r.sub("tolerance", known)
+    out = []
+    for q, (_, _, comps) in TOLERANCE_QUANTITIES.items():
+        if not t.has(q):
+            continue
+        if q == "position_nm" and isinstance(t.raw(q), dict) and "global" in t.raw(q):
+            raise SpecError(f"{t.key(q)}.global: a common shift of every element is a rigid translation of "
+                            f"the periodic array, which leaves its zero-order response unchanged; give only "
+                            f"{t.key(q)}.local")
+        sub = t.sub(q, {c: _TOL_COMPONENTS[c] for c in comps})
+        for c in comps:
+            out.append((q, c, sub.number(c, 0.0, minimum=0.0)))
+    tol = FabTolerance(label=t.text("label"), sigma=tuple(out))
+    for q, smallest in sizes.items():
+        if tol.combined(q) > TOLERANCE_MAX_RELATIVE * smallest:
+            raise SpecError(f"{t.key(q)}: the combined 1σ sqrt(global² + local²) = {tol.combined(q):.4g} "
+                            f"nm is more than {TOLERANCE_MAX_RELATIVE:g} × the deck's smallest value "
+                            f"({smallest:g} nm), so sampled sizes could turn negative; give at most "
+                            f"{TOLERANCE_MAX_RELATIVE * smallest:.4g} nm")
+    return tol
 
 
 def parse_fab(doc, where: str = "fab") -> FabDeck:
@@ -518,7 +588,10 @@ def parse_fab(doc, where: str = "fab") -> FabDeck:
     if p_lo <= l_lo:
         raise SpecError(f"{r.key('period_nm')}.min ({p_lo:g}) must exceed {r.key('length_nm')}.min "
                         f"({l_lo:g}) so that at least the shortest rod fits in a cell")
-    return FabDeck(name=r.text("name", "fab"), label=r.text("label"),
+    tolerance = None
+    if r.has("tolerance"):
+        tolerance = _parse_tolerance(r, {"width_nm": w_lo, "length_nm": l_lo, "thickness_nm": min(ths)})
+    return FabDeck(name=r.text("name", "fab"), label=r.text("label"), tolerance=tolerance,
                    thickness_nm=tuple(float(t) for t in ths),
                    width_min_nm=w_lo, width_max_nm=w_hi, length_min_nm=l_lo, length_max_nm=l_hi,
                    min_gap_nm=gap, max_aspect=aspect, corner_radius_nm=corner, grid_nm=grid,
