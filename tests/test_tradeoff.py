@@ -1,0 +1,138 @@
+"""A small front end to end: its points are mutually non-dominated, fab-clean and exactly re-checked; a
+sweep stopped between waves resumes to the same front; bad input is refused before any work.
+
+Small problem (one tilted rod, 5 wavelengths, one model N = 1, 5 weight vectors, few steps): the compile
+costs tens of seconds, so the sweep runs once per module and the resume run reuses its compiled step.
+Check values: for x signal, y control and x analyzer the channel amplitudes are a = t_xx, b = t_xy
+(hand-derived from a = analyzerᴴ·T·signal, invdesign/_metrics.py docstring), so the insertion loss is
+−10·log10|t_xx|² and the control power ratio for depth M is (M·|t_xx|/(4|t_xy|))².
+"""
+
+import json
+import pathlib
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from invdesign import Design
+from invdesign import _optimize as opt
+from invdesign._errors import SpecError
+from invdesign._pareto import dominates
+from invdesign._penalties import check_rules
+from invdesign._spec import parse_cell, parse_fab, parse_spec
+from invdesign._tradeoff import build_tradeoff, evaluate_front, run_front
+from invdesign._tradeoff_io import write_front
+
+ROOT = pathlib.Path(__file__).resolve().parent.parent
+FAB = {"name": "f", "label": "typical values (common practice, no source)", "thickness_nm": 40.0,
+       "width_nm": {"min": 40.0, "max": 120.0}, "length_nm": {"min": 60.0, "max": 400.0},
+       "min_gap_nm": 20.0, "max_aspect": 8.0, "corner_radius_nm": 10.0, "grid_nm": 1.0,
+       "angle_step_deg": 0.5, "period_nm": {"min": 250.0, "max": 900.0}}
+CELL = {"family": "lone_tilt", "period_nm": [500.0, 500.0],
+        "start": {"length": 200.0, "width": 60.0, "angle_deg": 30.0}}
+GOALS = [{"metric": "modulation_depth", "sense": ">=", "target": 0.8},
+         {"metric": "leakage", "sense": "<=", "target": 0.15},
+         {"metric": "insertion_loss_db", "sense": "<=", "target": 10.0},
+         {"metric": "control_power_ratio", "sense": "<=", "target": 2.0, "depth": 1.0}]
+OBJECTIVES = ["insertion_loss_db", "control_power_ratio"]
+
+
+def small(objectives=OBJECTIVES, front=None):
+    spec = parse_spec({"name": "tiny", "operating_nm": 1310.0,
+                       "band": {"start_nm": 1290.0, "stop_nm": 1330.0, "count": 5},
+                       "environment": {"superstrate_index": 1.0, "substrate_index": 1.45},
+                       "material": "gold_rakic1998", "goals": GOALS})
+    fab, cell = parse_fab(FAB), parse_cell(CELL)
+    cfg = {"optimizer": {"steps": 30, "starts": 2}, "robust": {"resolutions": [1], "corrections": ["kelly"]},
+           "report": {"resolutions": [1], "corrections": ["kelly"]}}
+    opts = opt.parse_run_options(cfg, fab, {"correction": "kelly"})
+    return build_tradeoff(spec, fab, cell, opts, objectives, front or {"divisions": 4, "steps": 15})
+
+
+@pytest.fixture(scope="module")
+def front(tmp_path_factory):
+    out = tmp_path_factory.mktemp("front")
+    ts = small()
+    state = run_front(ts, out, quiet=True)
+    cands = evaluate_front(ts, state)
+    res = write_front(ts, state, cands, out, meta={"test": True}, plot=True)
+    return ts, state, cands, res, out
+
+
+def test_front_points_are_mutually_non_dominated_and_fab_clean(front):
+    ts, state, cands, res, out = front
+    assert state["done"].all() and len(cands) == 5
+    pts = res["front"]
+    assert len(pts) >= 3  # a real trade-off: the anchors differ and the interior fills in
+    F = np.array([[p["objectives"][n] for n in OBJECTIVES] for p in pts])
+    for i in range(len(F)):
+        for j in range(len(F)):
+            assert i == j or not dominates(F[j], F[i])
+    for p in pts:
+        design = Design.from_json(out / p["design_json"])  # a loadable design file
+        assert check_rules(design.params, ts.base.fab, ts.base.spec) == []  # exact rules, no margin
+        for g in p["constraints"].values():
+            assert g["pass"]
+    assert sum(p["knee"] for p in pts) == 1
+    doc = json.loads((out / "front.json").read_text())
+    assert doc["quality"]["hypervolume"] > 0 and doc["quality"]["spacing"] >= 0
+    assert "laser" in doc["safety"].lower()
+    rows = (out / "front.csv").read_text().strip().splitlines()
+    assert len(rows) == 1 + len(pts)
+    assert rows[0].startswith("point,knee,insertion_loss_db,control_power_ratio")
+    assert (out / "front.png").stat().st_size > 0
+
+
+def test_objective_values_are_the_metrics_of_the_snapped_design(front):
+    ts, _, cands, res, out = front
+    from invdesign import ModelOptions, simulate
+
+    p = res["front"][0]
+    design = Design.from_json(out / p["design_json"])
+    resp = simulate(design, ts.base.wavelengths, model=ModelOptions(1, "kelly"))
+    t = np.asarray(resp.t)[ts.base.i0]
+    il = -10 * np.log10(abs(t[0, 0]) ** 2)
+    cpr = (1.0 * abs(t[0, 0]) / (4 * abs(t[0, 1]))) ** 2
+    assert p["objectives"]["insertion_loss_db"] == pytest.approx(il, rel=1e-9)
+    assert p["objectives"]["control_power_ratio"] == pytest.approx(cpr, rel=1e-9)
+
+
+def test_anchors_bound_the_front(front):
+    ts, state, cands, res, _ = front
+    # the lattice vertices minimise one objective each (smooth values at the best iterate): no other
+    # lattice point beats an anchor at its own objective by more than the snap can explain
+    verts = ts.vertices
+    for i, v in enumerate(verts):
+        assert state["f"][v, i] <= state["f"][:, i].min() + 0.02 * state["span"][i]
+
+
+def test_stopped_sweep_resumes_to_the_same_front(front, tmp_path):
+    ts, state, *_ = front
+    part = run_front(ts, tmp_path, quiet=True, stop_after_waves=1)
+    assert part.get("interrupted") and not part["done"].all()
+    again = run_front(ts, tmp_path, quiet=True)
+    assert again["done"].all()
+    np.testing.assert_allclose(again["u"], state["u"], rtol=0, atol=1e-9)
+
+
+def test_bad_objectives_are_refused_by_name():
+    with pytest.raises(SpecError, match=r"objectives\[1\] = 'speed'"):
+        small(["insertion_loss_db", "speed"])
+    with pytest.raises(SpecError, match="2 to 4"):
+        small(["insertion_loss_db"])
+    with pytest.raises(SpecError, match="front.divisions"):
+        small(front={"divisions": 0})
+    with pytest.raises(SpecError, match="front.reference"):
+        small(front={"reference": [1.0]})
+    with pytest.raises(SpecError, match="front: unknown key 'weigths'"):
+        small(front={"weigths": 3})
+
+
+def test_cli_refuses_a_bad_objective_before_work(tmp_path):
+    cmd = [sys.executable, "-m", "invdesign.cli", "tradeoff", "objectives=[insertion_loss_db,x]",
+           f"hydra.run.dir={tmp_path}"]
+    done = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=300)
+    assert done.returncode == 2
+    assert "objectives[1] = 'x'" in done.stderr and "insertion_loss_db" in done.stderr

@@ -1,0 +1,113 @@
+"""Pareto arithmetic against hand-derived cases, and hypervolume against pymoo's exact indicator.
+
+Hand-derived values are worked out in the comments beside them (areas and volumes of unions of boxes).
+The outside reference is pymoo (``pymoo.indicators.hv.HV``, a general-purpose multi-objective library,
+dev extra), whose exact hypervolume is computed by its own code path.
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+from invdesign._pareto import (
+    dominates,
+    hypervolume,
+    knee,
+    non_dominated,
+    spacing,
+    waves,
+    weight_lattice,
+)
+
+
+def test_dominance_hand_derived():
+    assert dominates([1, 2], [2, 2])          # better in one, equal in the other
+    assert not dominates([1, 2], [1, 2])      # equal points do not dominate each other
+    assert not dominates([1, 3], [2, 2])      # a trade-off: neither dominates
+    assert not dominates([2, 2], [1, 3])
+
+
+def test_non_dominated_hand_derived():
+    pts = [[1, 5], [2, 3], [3, 4], [4, 1], [2, 3], [5, 5], [np.inf, 0]]
+    # [3,4] is dominated by [2,3]; [5,5] by everything; the second [2,3] is a duplicate; the last is not
+    # finite and is never kept.
+    assert non_dominated(pts).tolist() == [True, True, False, True, False, False, False]
+    # three objectives: [1,1,1] dominates [1,2,1]; [0,3,3] and [3,0,3] trade off with it
+    pts3 = [[1, 1, 1], [1, 2, 1], [0, 3, 3], [3, 0, 3]]
+    assert non_dominated(pts3).tolist() == [True, False, True, True]
+
+
+def test_hypervolume_two_objectives_hand_derived():
+    # points (1,3), (2,2), (3,1) against r = (4,4): a staircase of three boxes,
+    # [1,4]x[3,4] = 3, [2,4]x[2,3] = 2, [3,4]x[1,2] = 1 -> 6.
+    assert hypervolume([[1, 3], [2, 2], [3, 1]], [4, 4]) == pytest.approx(6.0, abs=1e-15)
+    # a dominated point and a point outside the reference change nothing
+    assert hypervolume([[1, 3], [2, 2], [3, 1], [3, 3], [5, 0]], [4, 4]) == pytest.approx(6.0, abs=1e-15)
+    # one point: the box (4-1)*(4-3) = 3
+    assert hypervolume([[1, 3]], [4, 4]) == pytest.approx(3.0, abs=1e-15)
+    assert hypervolume([[4, 1]], [4, 4]) == 0.0  # on the reference: no volume
+    assert hypervolume(np.zeros((0, 2)), [1, 1]) == 0.0
+
+
+def test_hypervolume_three_objectives_hand_derived():
+    # (0,0,2), (0,2,0), (2,0,0) against r = (3,3,3). Union of boxes B1 = [0,3]x[0,3]x[2,3] (9),
+    # B2 = [0,3]x[2,3]x[0,3] (9), B3 = [2,3]x[0,3]x[0,3] (9). Each pairwise intersection has volume
+    # 3 (e.g. B1∩B2 = [0,3]x[2,3]x[2,3]), the triple [2,3]^3 is 1: 27 - 9 + 1 = 19.
+    assert hypervolume([[0, 0, 2], [0, 2, 0], [2, 0, 0]], [3, 3, 3]) == pytest.approx(19.0, abs=1e-14)
+    # one point (1,1,1) against (2,3,4): the box 1*2*3 = 6
+    assert hypervolume([[1, 1, 1]], [2, 3, 4]) == pytest.approx(6.0, abs=1e-15)
+
+
+def test_hypervolume_matches_pymoo_on_random_fronts(rng):
+    HV = pytest.importorskip("pymoo.indicators.hv").HV
+    for m in (2, 3, 4):
+        for _ in range(3):
+            pts = rng.uniform(0, 1, size=(12, m))
+            ref = np.full(m, 1.1)
+            assert hypervolume(pts, ref) == pytest.approx(float(HV(ref_point=ref)(pts)), rel=1e-12)
+
+
+def test_spacing_hand_derived():
+    # evenly spread: nearest-neighbour L1 distances all 2 -> spacing 0
+    assert spacing([[0, 4], [1, 3], [2, 2], [3, 1], [4, 0]]) == pytest.approx(0.0, abs=1e-15)
+    # (0,3), (1,2), (3,0): L1 nearest distances d = 2, 2, 4; mean 8/3; deviations -2/3, -2/3, 4/3;
+    # S = sqrt((4/9 + 4/9 + 16/9) / 2) = sqrt(4/3)
+    assert spacing([[0, 3], [1, 2], [3, 0]]) == pytest.approx(math.sqrt(4 / 3), rel=1e-14)
+    # scaling an objective by 1/2 before measuring: (0,6),(1,4),(3,0) with scale (1,2) is the case above
+    assert spacing([[0, 6], [1, 4], [3, 0]], scale=[1, 2]) == pytest.approx(math.sqrt(4 / 3), rel=1e-14)
+    assert math.isnan(spacing([[1, 1]]))
+
+
+def test_knee_hand_derived():
+    # extremes (0,1) and (1,0) in normalised units span the line f1 + f2 = 1; (0.2, 0.2) lies farthest on
+    # the ideal side of it (distance 0.6/sqrt 2), (0.5, 0.45) only 0.05/sqrt 2.
+    pts = [[0, 10], [2, 2], [5, 4.5], [10, 0]]  # normalised by the ranges (10, 10): same geometry
+    assert knee(pts) == 1
+    assert knee([[3, 3]]) == 0
+
+
+def test_weight_lattice_counts_and_sums():
+    for m, h in ((2, 8), (3, 4), (4, 3)):
+        lat, w = weight_lattice(m, h)
+        assert len(lat) == math.comb(h + m - 1, m - 1)  # Das & Dennis count, hand-derived: 9, 15, 20
+        assert np.all(lat.sum(axis=1) == h)
+        assert np.allclose(w.sum(axis=1), 1.0)
+        assert len({tuple(r) for r in lat}) == len(lat)
+
+
+def test_waves_step_one_lattice_neighbour_at_a_time():
+    lat, _ = weight_lattice(2, 4)  # (4,0), (3,1), (2,2), (1,3), (0,4)
+    verts = lat.max(axis=1) == 4
+    plan = waves(lat, verts)
+    # hand-derived: from both ends inwards, each point warm-started from the neighbour one step away
+    names = [[(tuple(lat[p]), tuple(lat[s])) for p, s in wave] for wave in plan]
+    assert names == [[((3, 1), (4, 0)), ((1, 3), (0, 4))], [((2, 2), (3, 1))]]
+    lat3, _ = weight_lattice(3, 3)
+    plan3 = waves(lat3, lat3.max(axis=1) == 3)
+    solved = set(np.flatnonzero(lat3.max(axis=1) == 3).tolist())
+    for wave in plan3:
+        for p, s in wave:
+            assert s in solved and np.abs(lat3[p] - lat3[s]).sum() == 2  # one unit moved: a neighbour
+        solved |= {p for p, _ in wave}
+    assert solved == set(range(len(lat3)))
