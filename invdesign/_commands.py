@@ -292,3 +292,91 @@ def _note_deck_mismatch(design_path: pathlib.Path, fab_name: str) -> None:
     if made_for and made_for != fab_name:
         print(f"note: this design was optimised for fab deck '{made_for}'; exporting under '{fab_name}' "
               f"(pass fab={made_for} to use that deck)")
+
+
+def tolerance(cfg) -> None:
+    """``invdesign tolerance design=PATH fab=NAME spec=NAME [samples=N]``: yield under the fab's errors."""
+    from . import _tolerance as tol
+    from ._spec import parse_fab, parse_spec
+    from ._tolerance_io import write_outputs
+
+    t_start = time.perf_counter()
+    plain = OmegaConf.to_container(cfg, resolve=True)
+    opts = tol.parse_study_options(plain)
+    spec = parse_spec(plain.get("spec"))
+    fab = parse_fab(plain.get("fab"))
+    if fab.tolerance is None:
+        raise InvdesignError(f"fab deck '{fab.name}' has no tolerance block; add one to "
+                             f"conf/fab/{fab.name}.yaml (tolerance: {{label, width_nm: {{global, local}}, "
+                             f"length_nm, position_nm: {{local}}, angle_deg, thickness_nm}}, 1-sigma values) "
+                             f"or pick another deck")
+    path = pathlib.Path(opts.design).expanduser()
+    design = Design.from_json(path)
+    model = build_model(cfg.model)
+    sigma = tol.sigmas(fab.tolerance, opts.sigma_scale)
+    ev = tol.make_evaluator(design, spec, fab, model, batch=opts.batch)
+    out = _run_dir()
+    atomic_write_text(out / "run_config.yaml", OmegaConf.to_yaml(cfg))
+    design.to_json(out / "design.json")
+    _note_deck_mismatch(path, fab.name)
+    print(f"tolerance: '{design.name or path.name}' against spec '{spec.name}' ({len(spec.goals)} goals) "
+          f"under fab deck '{fab.name}' (sigma: {fab.tolerance.label}; x{opts.sigma_scale:g}), "
+          f"{opts.samples} samples, model {model.dipoles_per_rod} dipole(s)/rod, {model.correction}")
+    result = tol.study(ev, sigma, samples=opts.samples, seed=opts.seed, level=opts.level, method=opts.method,
+                       driver_samples=opts.driver_samples)
+    meta = {"design": str(path), "design_name": design.name, "spec": spec.name, "fab_deck": fab.name,
+            "tolerance_label": fab.tolerance.label, "sigma_scale": opts.sigma_scale, "sigma_used": sigma,
+            "corner_radius_sigma_nm": {"global": fab.tolerance.get("corner_radius_nm", "global"),
+                                       "local": fab.tolerance.get("corner_radius_nm", "local")},
+            "model": {"dipoles_per_rod": model.dipoles_per_rod, "correction": model.correction},
+            "samples": opts.samples, "seed": opts.seed, "seconds": round(time.perf_counter() - t_start, 2)}
+    paths = write_outputs(result, ev, out, meta=meta, plot=bool(plain.get("plot", True)))
+    _print_tolerance(result, ev)
+    for kind, p in paths.items():
+        print(f"wrote {kind}: {p}")
+    print(SAFETY_NOTE)
+
+
+def _print_tolerance(result, ev) -> None:
+    y = result["yield"]
+    ci = y["interval"]
+    print(f"\nyield {100 * y['fraction']:.1f} % ({y['passed']} of {y['samples']} samples; "
+          f"{100 * ci['level']:g} % {ci['method'].replace('_', '-')} interval {100 * ci['low']:.1f}–"
+          f"{100 * ci['high']:.1f} %); touching elements in {y['bridged_samples']} samples; nominal design "
+          f"{'passes' if y['nominal_passes'] else 'FAILS'}")
+    print(f"  {'goal':<22} {'target':<12} {'nominal':>10} {'pass %':>7} {'linear σ':>10} {'MC σ':>10}  "
+          f"largest source")
+    for label, g in result["goals"].items():
+        lin = g["linear"]
+        print(f"  {label:<22} {g['sense'] + ' ' + format(g['target'], 'g'):<12} {g['nominal']:>10.4g} "
+              f"{100 * g['pass_fraction']:>7.1f} {lin['sigma_linear']:>10.3g} "
+              f"{lin['sigma_monte_carlo']:>10.3g}  {lin['largest_source']}"
+              + ("" if lin["quantity"] == g["metric"] else f"  (spread of {lin['quantity']})"))
+    blame = {k: v for k, v in result["drivers"]["failures_by_source_linear"].items() if v}
+    if blame:
+        print("failed goals by dominant source (first-order model): "
+              + ", ".join(f"{k} {v}" for k, v in sorted(blame.items(), key=lambda kv: -kv[1])))
+    rem = result["drivers"]["removal"]
+    if rem:
+        gains = sorted(rem["yield_gain_if_removed"].items(), key=lambda kv: -kv[1])
+        print(f"yield gain if one source were removed ({rem['samples']} samples, same draws): "
+              + ", ".join(f"{k} {100 * v:+.1f} %" for k, v in gains))
+
+
+def gather(cfg) -> None:
+    """``invdesign gather sweep=DIR``: one table and plot of a multirun sweep's jobs."""
+    from ._sweep_summary import gather as _gather
+    from ._sweep_summary import write_summary
+
+    if not cfg.get("sweep"):
+        raise InvdesignError("sweep is missing: give the folder of a multirun sweep, e.g. "
+                             "invdesign gather sweep=runs/tradeoff-sweep/<timestamp>")
+    table = _gather(str(cfg.sweep))
+    paths = write_summary(table, _run_dir(), plot=bool(cfg.get("plot", True)))
+    done = sum(r["status"] != "unfinished" for r in table["rows"])
+    print(f"gathered {len(table['rows'])} job(s) of {table['sweep']} ({done} finished); varying: "
+          f"{', '.join(table['varying']) or 'nothing'}")
+    for r in table["rows"]:
+        print("  " + ", ".join(f"{k}={v:.4g}" if isinstance(v, float) else f"{k}={v}" for k, v in r.items()))
+    for kind, p in paths.items():
+        print(f"wrote {kind}: {p}")

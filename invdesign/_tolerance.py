@@ -64,6 +64,50 @@ CORNER_RADIUS_NOTE = ("not sampled: the point-dipole model turns each rod into t
 CI_METHODS = ("clopper_pearson", "wilson")
 
 
+@dataclasses.dataclass(frozen=True)
+class StudyOptions:
+    """Settings of a tolerance study (``conf/tolerance.yaml``)."""
+
+    design: str
+    samples: int = 1000
+    seed: int = 0
+    sigma_scale: float = 1.0
+    level: float = 0.95
+    method: str = "clopper_pearson"
+    driver_samples: int = 400
+    batch: int = 64
+
+
+def parse_study_options(cfg: dict) -> StudyOptions:
+    """``StudyOptions`` from the tolerance config (plain dict); ``SpecError`` naming the key on mistakes."""
+    from ._spec import _Reader
+
+    keys = ("design", "samples", "seed", "sigma_scale", "confidence", "drivers", "batch")
+    r = _Reader({k: cfg.get(k) for k in keys if k in cfg}, "tolerance", {
+        "design": "path to a design file (e.g. runs/optimize/<timestamp>/design.json)",
+        "samples": "number of Monte Carlo samples (>= 2)", "seed": "seed of the draws (integer)",
+        "sigma_scale": "factor on every sigma of the deck's tolerance block (>= 0)",
+        "confidence": "{level: in (0, 1), method: clopper_pearson or wilson}",
+        "drivers": "{samples: samples per removal run (0 to skip)}",
+        "batch": "samples per vmapped batch (>= 1)"})
+    if not r.has("design"):
+        raise SpecError("design is missing: give design=PATH, a design file such as the design.json of an "
+                        "'invdesign optimize' run (runs/optimize/<timestamp>/design.json)")
+    conf = r.sub("confidence", {"level": "confidence level in (0, 1)",
+                                "method": f"one of {', '.join(CI_METHODS)}"}, {})
+    level = conf.number("level", 0.95, positive=True)
+    if level >= 1:
+        raise SpecError(f"tolerance.confidence.level must lie in (0, 1), got {level:g}")
+    drv = r.sub("drivers", {"samples": "samples per removal run (0 to skip)"}, {})
+    return StudyOptions(design=str(r.raw("design")),
+                        samples=r.number("samples", 1000, integer=True, minimum=2),
+                        seed=r.number("seed", 0, integer=True),
+                        sigma_scale=r.number("sigma_scale", 1.0, minimum=0.0), level=level,
+                        method=conf.text("method", "clopper_pearson", choices=CI_METHODS),
+                        driver_samples=drv.number("samples", 400, integer=True, minimum=0),
+                        batch=r.number("batch", 64, integer=True, minimum=1))
+
+
 def source_name(source) -> str:
     """'width_nm.global' for ("width_nm", "global")."""
     return f"{source[0]}.{source[1]}"

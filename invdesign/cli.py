@@ -16,6 +16,7 @@ _COMMANDS = {
     "export": "GDSII and OASIS layout of a design plus a fab traveller: layout.gds, layout.oas, traveller.md",
     "tradeoff": "a fab-checked Pareto front of 2-4 objectives: front.csv, front.json, front.png",
     "gather": "one table and plot of a sweep's runs (sweep=DIR): summary.csv, summary.png",
+    "tolerance": "Monte Carlo yield of a design under the fab deck's errors: tolerance.json, plots",
 }
 
 
