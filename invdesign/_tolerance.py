@@ -143,7 +143,8 @@ def binomial_interval(k: int, n: int, level: float = 0.95, method: str = "cloppe
         p = k / n
         centre = (p + z * z / (2 * n)) / (1 + z * z / n)
         half = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / (1 + z * z / n)
-        return max(0.0, centre - half), min(1.0, centre + half)
+        # at k = 0 (k = n) the lower (upper) limit is exactly 0 (1); say so rather than round to it
+        return (0.0 if k == 0 else max(0.0, centre - half)), (1.0 if k == n else min(1.0, centre + half))
     raise ValueError(f"unknown interval method {method!r}; use one of: {', '.join(CI_METHODS)}")
 
 
