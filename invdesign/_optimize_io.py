@@ -110,20 +110,29 @@ def _plt():
     return plt
 
 
+def _model_color(k: int):
+    """One colour per robust model, the same in every plot of a run."""
+    import matplotlib
+
+    return matplotlib.colormaps["tab10"](k % 10)
+
+
 def plot_spectra(setup, c, path):
     """|T_xx|², |T_xy|² and the modulation depth M against wavelength, at each robust resolution."""
     plt = _plt()
     spec = setup.spec
     wl = setup.wavelengths
     fig, axes = plt.subplots(1, 2, figsize=(11, 4.2), constrained_layout=True)
-    for n, resp in c["responses"].items():
+    for k, (n, resp) in enumerate(c["responses"].items()):
+        color = _model_color(k)
         J = np.asarray(resp.t if spec.matrix == "t" else resp.r)
-        axes[0].plot(wl, np.abs(J[:, 0, 0]) ** 2, label=f"|{spec.matrix}_xx|², {n}")
-        axes[0].plot(wl, np.abs(J[:, 0, 1]) ** 2, "--", label=f"|{spec.matrix}_xy|², {n}")
+        axes[0].plot(wl, np.abs(J[:, 0, 0]) ** 2, ".-", ms=3, color=color, label=n)
+        axes[0].plot(wl, np.abs(J[:, 0, 1]) ** 2, ".--", ms=3, color=color)
         a, b = channel_amplitudes(J, spec.signal, spec.control, spec.analyzer)
-        axes[1].plot(wl, np.asarray(modulation_depth(a, b, spec.rho)), label=f"M, {n}")
+        axes[1].plot(wl, np.asarray(modulation_depth(a, b, spec.rho)), ".-", ms=3, color=color, label=n)
     axes[0].axhline(0.25, color="0.5", lw=0.8, ls=":", label="0.25 single-sheet cross-pol ceiling")
-    axes[0].set(xlabel="vacuum wavelength (nm)", ylabel="zero-order power", title="co- and cross-polarised")
+    axes[0].set(xlabel="vacuum wavelength (nm)", ylabel="zero-order power",
+                title=f"solid |{spec.matrix}_xx|², dashed |{spec.matrix}_xy|² (dots: optimised samples)")
     axes[0].legend(fontsize=7)
     depth = spec.depth_target()
     if depth is not None:
@@ -142,11 +151,12 @@ def plot_phase(setup, c, path):
     spec = setup.spec
     phi = np.linspace(-np.pi, np.pi, 361)
     fig, ax = plt.subplots(figsize=(6, 4), constrained_layout=True)
-    for n, resp in c["responses"].items():
+    for k, (n, resp) in enumerate(c["responses"].items()):
         J = np.asarray(resp.t if spec.matrix == "t" else resp.r)[setup.i0]
         a, b = channel_amplitudes(J, spec.signal, spec.control, spec.analyzer)
-        ax.plot(np.degrees(phi), np.asarray(intensity(a, b, spec.rho, phi)), label=f"I(φ), {n}")
-        ax.axhline(float(np.abs(a) ** 2), ls=":", lw=0.8, color="0.5")
+        ax.plot(np.degrees(phi), np.asarray(intensity(a, b, spec.rho, phi)), color=_model_color(k),
+                label=f"I(φ), {n}")
+        ax.axhline(float(np.abs(a) ** 2), ls=":", lw=0.8, color=_model_color(k))
     ax.set(xlabel="control phase φ (deg)", ylabel="detected intensity / incident signal",
            title=f"I(φ) at {spec.operating_nm:g} nm, rho = {spec.rho:g} (dotted: signal alone)")
     ax.legend(fontsize=8)
