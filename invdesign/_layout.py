@@ -104,11 +104,12 @@ def _is_multiple(x: float, step: float) -> bool:
     return abs(x / step - round(x / step)) < 1e-9
 
 
-def deck_violations(design: Design, fab) -> list:
+def deck_violations(design: Design, fab, gaps=None) -> list:
     """Every rule of the deck the design breaks (``check_rules``' records), element indices as in the file.
 
     Rods go through ``check_rules`` unchanged; a disk is checked as a feature whose width and length are
     its diameter (deck width minimum, length maximum, thickness, grid) and in every gap it takes part in.
+    ``gaps``: ``pair_gaps`` of all elements if already computed.
     """
     els = design.elements
     rods = [i for i, e in enumerate(els) if e.shape == "rod"]
@@ -124,7 +125,7 @@ def deck_violations(design: Design, fab) -> list:
     else:
         out += check_rules(CellParams(p.a1, p.a2, ()), fab)  # the lattice's own rules
     if disks:
-        out += _disk_violations(design, fab, disks)
+        out += _disk_violations(design, fab, disks, gaps)
     return out
 
 
@@ -134,7 +135,11 @@ def _rename(m, idx):
     return f"rods {idx[int(m.group(1))]} and {idx[int(m.group(2))]}"
 
 
-def _disk_violations(design, fab, disks) -> list:
+def _all_gaps(design):
+    return pair_gaps(design.elements, np.asarray(design.params.a1), np.asarray(design.params.a2))
+
+
+def _disk_violations(design, fab, disks, gaps=None) -> list:
     out = []
 
     def bad(rule, where, value, limit):
@@ -154,7 +159,7 @@ def _disk_violations(design, fab, disks) -> list:
             x = float(x)
             if abs(x / fab.grid_nm - round(x / fab.grid_nm)) * fab.grid_nm > GRID_TOL:
                 bad("grid", f"disk {i} {name}", x, round(x / fab.grid_nm) * fab.grid_nm)
-    for i, j, gap in pair_gaps(els, np.asarray(design.params.a1), np.asarray(design.params.a2)):
+    for i, j, gap in gaps if gaps is not None else _all_gaps(design):
         if i not in disks and j not in disks:
             continue
         where = (f"{els[i].shape} {i} and its periodic image" if i == j
@@ -167,10 +172,9 @@ def _disk_violations(design, fab, disks) -> list:
     return out
 
 
-def _bias_violations(design, biases) -> list:
+def _bias_violations(gaps, biases) -> list:
     out = []
-    els = design.elements
-    for i, j, gap in pair_gaps(els, np.asarray(design.params.a1), np.asarray(design.params.a2)):
+    for i, j, gap in gaps:
         written = gap - biases[i] - biases[j]
         if gap >= 0 and written <= 0:
             where = f"elements {i} and {j}" if i != j else f"element {i} and its periodic image"
@@ -224,7 +228,8 @@ def plan_layout(design: Design, fab, options: LayoutOptions) -> LayoutPlan:
     n1, n2 = field_counts(a1, a2, o.field_cells, o.field_size_um)
     origin = array_origin(a1, a2, n1, n2, grid)
     bbox = array_bbox([w.outline for w in written], a1, a2, n1, n2, origin)
-    violations = deck_violations(design, fab) + _bias_violations(design, biases)
+    gaps = _all_gaps(design)
+    violations = deck_violations(design, fab, gaps) + _bias_violations(gaps, biases)
     size = bbox[1] - bbox[0]
     if not o.stitching and max(size) > o.write_field_um * 1000.0 + 1e-9:
         violations.append({"rule": "write_field", "where": "field", "value": float(max(size)),
@@ -263,8 +268,11 @@ def rebuild_design(template: Design, polygons: dict, a1, a2, plan_options: Layou
     (nm); ``template``: the environment, materials and film thickness source (one thickness per
     material, taken from the template's first element of that material). Each polygon's material is the
     one whose layer it lies on. With ``exact``, each element is then the one on the deck's grid and angle
-    step (within ±2 grid steps and ±1 angle step of the fit) whose outline, written with the same
-    settings, reproduces the polygon vertex for vertex; if none does, ``LayoutError`` is raised.
+    step (within ±1 grid step in position, ±2 in size and ±1 angle step of the fit) whose outline, written
+    with the same settings, reproduces the polygon vertex for vertex. ``LayoutError`` is raised if none
+    does, or if several do: a sharp rotated rectangle has only four vertices, and on a fine grid
+    neighbouring lengths or widths can snap to the same four points (rounded corners, with their many arc
+    vertices, or axis-aligned rods make the geometry decide).
     """
     o = plan_options
     grid = o.snap_nm if o.snap_nm is not None else fab.grid_nm
@@ -321,19 +329,29 @@ def _exact(fit, pts, bias, radius, grid, angle_step, o):
     far = (0, -1, 1, -2, 2)
     if fit.shape == "disk":
         d0 = q(float(fit.diameter), grid)
-        for dx, dy, dd in itertools.product(near, near, far):
-            e = dataclasses.replace(fit, center=jnp.asarray([cx + dx * grid, cy + dy * grid]),
-                                    diameter=jnp.asarray(d0 + dd * grid))
-            if writes(e):
-                return e
+        cands = (dataclasses.replace(fit, center=jnp.asarray([cx + dx * grid, cy + dy * grid]),
+                                     diameter=jnp.asarray(d0 + dd * grid))
+                 for dx, dy, dd in itertools.product(near, near, far))
     else:
         L0, W0 = q(float(fit.length), grid), q(float(fit.width), grid)
         a0 = q(float(fit.angle_deg), angle_step)
-        for da, dx, dy, dl, dw in itertools.product(near, near, near, far, far):
-            e = dataclasses.replace(fit, center=jnp.asarray([cx + dx * grid, cy + dy * grid]),
-                                    length=jnp.asarray(L0 + dl * grid), width=jnp.asarray(W0 + dw * grid),
-                                    angle_deg=jnp.asarray((a0 + da * angle_step) % 180.0))
-            if writes(e):
-                return e
-    raise LayoutError(f"no {fit.shape} on the {grid:g} nm grid near the fit at "
-                      f"{[round(float(v), 2) for v in fit.center]} nm reproduces the polygon read back")
+        cands = (dataclasses.replace(fit, center=jnp.asarray([cx + dx * grid, cy + dy * grid]),
+                                     length=jnp.asarray(L0 + dl * grid), width=jnp.asarray(W0 + dw * grid),
+                                     angle_deg=jnp.asarray((a0 + da * angle_step) % 180.0))
+                 for da, dx, dy, dl, dw in itertools.product(near, near, near, far, far))
+    found = [e for e in cands if writes(e)]
+    where = f"the {fit.shape} read back near {[round(float(v), 2) for v in fit.center]} nm"
+    if not found:
+        raise LayoutError(f"no {fit.shape} on the {grid:g} nm grid reproduces {where}")
+    if len(found) > 1:
+        opts = "; ".join(_describe(e) for e in found)
+        raise LayoutError(f"{where} is ambiguous: {len(found)} elements on the {grid:g} nm grid write the "
+                          f"same polygon ({opts}); round the corners or use a finer snap grid")
+    return found[0]
+
+
+def _describe(e) -> str:
+    c = ", ".join(f"{float(v):g}" for v in e.center)
+    if e.shape == "disk":
+        return f"centre ({c}) diameter {float(e.diameter):g}"
+    return (f"centre ({c}) {float(e.length):g} × {float(e.width):g} nm at {float(e.angle_deg):g}°")

@@ -11,7 +11,9 @@ All coordinates are nm, counter-clockwise (n, 2) arrays, in the unit cell's fram
   chord-to-circle distance is ≤ the tolerance.
 * **Edge bias** b moves every edge outward by b (inward for b < 0): a rod becomes (L + 2b) × (W + 2b)
   with corner radius r + b (the exact offset of a rounded rectangle), a disk's diameter grows by 2b.
-* **Snapping** rounds every vertex to the nearest multiple of the grid and drops vertices that coincide.
+* **Snapping** rounds every vertex to the nearest multiple of the grid, halves upwards (towards +x, +y), and
+  drops vertices that coincide. Rounding halves one way keeps a feature's size when its edges fall on
+  half-grid points (a 93 nm wide rod centred on a 1 nm grid): it moves by half a step instead.
 
 ``element_from_outline`` reverses ``element_outline`` (for reading a layout back): the centre and axes
 come from the polygon's area moments (exact for a rectangle or rounded rectangle, insensitive to snapping),
@@ -30,6 +32,9 @@ MIN_DISK_VERTICES = 8
 
 
 def _rotation(angle_deg: float) -> np.ndarray:
+    if angle_deg % 90.0 == 0.0:  # exact quarter turns: no trigonometric round-off on the grid
+        c, s = [(1, 0), (0, 1), (-1, 0), (0, -1)][int(angle_deg // 90.0) % 4]
+        return np.array([[c, -s], [s, c]], float)
     th = math.radians(angle_deg)
     return np.array([[math.cos(th), -math.sin(th)], [math.sin(th), math.cos(th)]])
 
@@ -100,8 +105,9 @@ def _dedupe(pts: np.ndarray, eps: float = 1e-9) -> np.ndarray:
 
 
 def snap(pts: np.ndarray, grid: float) -> np.ndarray:
-    """Vertices rounded to the nearest multiple of ``grid`` (nm), coinciding neighbours removed."""
-    out = _dedupe(np.round(np.asarray(pts, float) / grid) * grid)
+    """Vertices rounded to the nearest multiple of ``grid`` (nm), halves upwards; coinciding neighbours
+    removed."""
+    out = _dedupe(np.floor(np.asarray(pts, float) / grid + 0.5 + 1e-9) * grid)
     if len(out) < 3:
         raise ValueError(f"a shape collapses to fewer than 3 vertices on a {grid:g} nm grid")
     return out
