@@ -1,0 +1,167 @@
+"""Gradient front (``invdesign tradeoff``) against pymoo's NSGA-II on the same model, by hypervolume.
+
+Both methods see the same problem: the shipped heron_1310 spec, ebl_fine deck and a cell family, objectives
+insertion_loss_db and control_power_ratio, the spec's other goals and the deck's rules as constraints, one
+model (one dipole per rod, Kelly correction). NSGA-II searches the family's bounded parameters directly
+(the same box the gradient method reaches through its sigmoid transform); its constraints are the goals'
+normalised shortfalls and the smooth rule penalty (G ≤ 0 is feasible). It runs twice: with as many model
+evaluations as the gradient sweep used, and with ten times as many. A gradient evaluation is one value and
+gradient, about 2.2 forward costs (README, benchmarks/forward_speed.py), so "equal" favours NSGA-II in
+compute.
+
+Every final point of every method is snapped to the deck's grid, checked exactly and re-simulated
+(``evaluate_candidate``); the hypervolumes are of the feasible non-dominated snapped points, against one
+reference point for all (the worst value of each objective over the union of the fronts plus 10 % of its
+range; common practice, no source). Prints the hypervolumes and the ratios ours / theirs.
+
+    pip install -e ".[benchmark]"
+    python benchmarks/tradeoff_vs_nsga2.py [--cell lone_tilt] [--band-count 13] [--seed 0]
+"""
+
+import argparse
+import pathlib
+import sys
+import tempfile
+import time
+
+import numpy as np
+
+ROOT = pathlib.Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+import invdesign._jaxsetup  # noqa: E402,F401  (CPU + x64 first)
+
+
+def load(name):
+    from omegaconf import OmegaConf
+
+    return OmegaConf.to_container(OmegaConf.load(ROOT / "conf" / name), resolve=True)
+
+
+def build(args):
+    from invdesign import _optimize as opt
+    from invdesign._spec import parse_cell, parse_fab, parse_spec
+    from invdesign._tradeoff import build_tradeoff
+
+    spec_doc = load("spec/heron_1310.yaml")
+    spec_doc["band"]["count"] = args.band_count
+    spec, fab, cell = parse_spec(spec_doc), parse_fab(load("fab/ebl_fine.yaml")), parse_cell(
+        load(f"cell/{args.cell}.yaml"))
+    cfg = {"optimizer": {"steps": args.anchor_steps, "starts": 2, "seed": args.seed},
+           "robust": {"resolutions": [1], "corrections": ["kelly"]},
+           "report": {"resolutions": [1], "corrections": ["kelly"]}}
+    opts = opt.parse_run_options(cfg, fab, {"correction": "kelly"})
+    return build_tradeoff(spec, fab, cell, opts, ["insertion_loss_db", "control_power_ratio"],
+                          {"steps": args.point_steps, "divisions": args.divisions})
+
+
+def exact_front(ts, us):
+    """Snap and check every row of us; (oriented objective values of the feasible points, count)."""
+    from invdesign import _optimize as opt
+    from invdesign._pareto import non_dominated
+    from invdesign._tradeoff import exact_objectives, oriented
+
+    F = []
+    for u in us:
+        c = opt.evaluate_candidate(ts.base, u, with_report=False)
+        if c.get("design") is None or not c["feasible"]:
+            continue
+        per = np.stack([exact_objectives(r, ts) for r in c["responses"].values()])
+        signs = np.array([o.sign for o in ts.objectives])
+        F.append(np.where(signs > 0, per.max(axis=0), per.min(axis=0)))
+    if not F:
+        return np.zeros((0, len(ts.objectives)))
+    F = oriented(ts, np.array(F))
+    F = F[np.all(np.isfinite(F), axis=1)]
+    return F[non_dominated(F)]
+
+
+def nsga2(ts, evaluations, seed, pop_size):
+    import jax
+    import jax.numpy as jnp
+    from pymoo.algorithms.moo.nsga2 import NSGA2
+    from pymoo.core.problem import Problem
+    from pymoo.optimize import minimize
+
+    from invdesign import _optimize as opt
+    from invdesign._penalties import rule_penalty
+    from invdesign._simulate import response_from_params
+    from invdesign._tradeoff import smooth_objectives
+
+    setup = ts.base
+    fam = setup.family
+
+    def one(values):
+        u = jnp.log(values - fam.lo) - jnp.log(fam.hi - values)  # inverse of lo + (hi − lo)·sigmoid(u)
+        params = fam.params(u)
+        resp = response_from_params(params, setup.problems[0])
+        f = smooth_objectives(resp, ts)
+        g = opt.goal_shortfalls(resp, setup)
+        pen, _ = rule_penalty(params, setup.fab, setup.opts.gap_margin_nm)
+        return f, jnp.concatenate([g, pen[None]])
+
+    batch = jax.jit(jax.vmap(one))
+    eps = 1e-6 * (fam.hi - fam.lo)
+
+    class Front(Problem):
+        def __init__(self):
+            super().__init__(n_var=len(fam.names), n_obj=len(ts.objectives),
+                             n_ieq_constr=len(setup.spec.goals) + 1, xl=fam.lo + eps, xu=fam.hi - eps)
+
+        def _evaluate(self, x, out, *args, **kwargs):
+            f, g = batch(jnp.asarray(x))
+            f, g = np.asarray(f), np.asarray(g)
+            out["F"] = np.where(np.isfinite(f), f, 1e6)
+            out["G"] = np.where(np.isfinite(g), g, 1e6)
+
+    res = minimize(Front(), NSGA2(pop_size=pop_size), ("n_evals", int(evaluations)), seed=seed,
+                   verbose=False)
+    X = res.pop.get("X")
+    u = np.log(X - fam.lo) - np.log(fam.hi - X)
+    return u, int(res.algorithm.evaluator.n_eval)
+
+
+def main():
+    from invdesign._pareto import hypervolume
+    from invdesign._tradeoff import run_front
+
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--cell", default="pivot_pair")
+    ap.add_argument("--band-count", type=int, default=13)
+    ap.add_argument("--anchor-steps", type=int, default=80)
+    ap.add_argument("--point-steps", type=int, default=40)
+    ap.add_argument("--divisions", type=int, default=8)
+    ap.add_argument("--pop-size", type=int, default=40)
+    ap.add_argument("--seed", type=int, default=0)
+    args = ap.parse_args()
+    ts = build(args)
+    t0 = time.perf_counter()
+    with tempfile.TemporaryDirectory() as tmp:
+        state = run_front(ts, tmp, quiet=True)
+    ours_s = time.perf_counter() - t0
+    n_ours = int(state["evaluations"])
+    fronts = {"gradient front": (exact_front(ts, state["u"]), n_ours, ours_s)}
+    for mult in (1, 10):
+        t0 = time.perf_counter()
+        u, n = nsga2(ts, mult * n_ours, args.seed, args.pop_size)
+        fronts[f"NSGA-II, {mult}x evaluations"] = (exact_front(ts, u), n, time.perf_counter() - t0)
+    union = np.concatenate([f for f, _, _ in fronts.values() if len(f)])
+    worst, best = union.max(axis=0), union.min(axis=0)
+    ref = worst + 0.1 * np.where(worst > best, worst - best, np.maximum(np.abs(worst), 1.0))
+    signs = np.array([o.sign for o in ts.objectives])
+    print(f"problem: heron_1310 / ebl_fine / {args.cell}, {args.band_count} wavelengths, model kelly/N=1; "
+          f"objectives {', '.join(ts.names)}")
+    print(f"reference point (objective units): {(ref * signs).round(6).tolist()}")
+    hv = {}
+    for name, (F, n, sec) in fronts.items():
+        hv[name] = hypervolume(F, ref) if len(F) else 0.0
+        print(f"  {name:<28} evaluations {n:>6}  feasible front points {len(F):>3}  "
+              f"hypervolume {hv[name]:.6g}  ({sec:.1f} s)")
+    ours = hv["gradient front"]
+    for name in list(hv)[1:]:
+        ratio = ours / hv[name] if hv[name] > 0 else float("inf")
+        print(f"ratio gradient front / {name}: {ratio:.4g}")
+
+
+if __name__ == "__main__":
+    main()
