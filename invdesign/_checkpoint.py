@@ -13,14 +13,13 @@ sees the old or the new checkpoint, never half of one.
 
 import io
 import json
-import os
 import pathlib
 import signal
-import tempfile
 import threading
 
 import numpy as np
 
+from ._atomic import atomic_write_bytes
 from ._errors import SpecError
 
 CHECKPOINT_NAME = "latest.npz"
@@ -38,17 +37,7 @@ def save(run_dir, arrays: dict, header: dict) -> pathlib.Path:
     payload = {f"a_{k}": np.asarray(v) for k, v in arrays.items()}
     payload["header"] = np.frombuffer(json.dumps(header).encode(), dtype=np.uint8)
     np.savez(buf, **payload)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".latest.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(buf.getvalue())
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    atomic_write_bytes(path, buf.getvalue())
     return path
 
 

@@ -18,15 +18,14 @@ import copy
 import dataclasses
 import json
 import math
-import os
 import pathlib
-import tempfile
 from functools import partial
 
 import jax
 import jax.numpy as jnp
 import numpy as np
 
+from ._atomic import atomic_write_text
 from ._elements import Disk, Rod, Sphere
 from ._errors import DesignError, MaterialError
 from ._geometry import pair_gaps, wrap_into_cell
@@ -136,23 +135,6 @@ class Design:
     @property
     def elements(self):
         return self.params.elements
-
-
-def atomic_write_text(path, text: str) -> None:
-    """Write text to ``path`` via a temporary file in the same folder and an atomic rename."""
-    path = pathlib.Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
 
 
 def _floats(a):

@@ -18,13 +18,13 @@ that record's three points in the stream (``_rewrite_aref``); OASIS needs no suc
 general regular repetition directly).
 """
 
-import os
 import pathlib
 import struct
 import tempfile
 
 import numpy as np
 
+from ._atomic import atomic_write_bytes
 from ._layout import LayoutPlan
 from ._layout_shapes import frame_polygons, mark_polygons
 
@@ -139,23 +139,6 @@ def _rewrite_aref(data: bytes, sname: str, points_dbu) -> bytes:
     return bytes(out)
 
 
-def _atomic_write_bytes(path: pathlib.Path, data: bytes) -> None:
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # a layout is shared with the fab: ordinary file permissions
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-
-
 def write_layout(plan: LayoutPlan, out_dir, stem: str = "layout") -> dict:
     """Write ``<stem>.gds`` and/or ``<stem>.oas`` into ``out_dir`` atomically; returns {format: path}."""
     out = pathlib.Path(out_dir)
@@ -183,6 +166,6 @@ def write_layout(plan: LayoutPlan, out_dir, stem: str = "layout") -> dict:
             o = plan.origin
             pts = np.round(np.array([o, o + plan.n1 * plan.a1, o + plan.n2 * plan.a2]) / d)
             data = _rewrite_aref(data, plan.unit_name, pts)
-        _atomic_write_bytes(path, data)
+        atomic_write_bytes(path, data)
         paths[fmt] = path
     return paths
