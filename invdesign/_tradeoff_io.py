@@ -156,7 +156,8 @@ def plot_front(ts, cands, sel, path):
             ax.scatter(feas[:, i], feas[:, j], s=16, facecolors="none", edgecolors="0.4", label="dominated")
         if len(front):
             order = np.argsort(front[:, i])
-            ax.plot(front[order, i], front[order, j], "-o", color="tab:blue", ms=5, lw=1, label="front")
+            style = "-o" if m == 2 else "o"  # a projection of a 3-4 objective front is no curve
+            ax.plot(front[order, i], front[order, j], style, color="tab:blue", ms=5, lw=1, label="front")
             if sel["knee"] is not None:
                 k = front[sel["knee"]]
                 ax.scatter([k[i]], [k[j]], s=140, marker="D", facecolors="none", edgecolors="tab:red", lw=1.6,
