@@ -22,6 +22,20 @@ every smooth rule holds with its margin):
   the report checks N up to 13). Measured on the shipped examples (see ``ROBUST_DEFAULT_RESOLUTIONS``):
   the correction moves the figures far more than N = 3 → 13 does, and N = 1 differs from the chains
   wherever rods come within a few tens of nm, so both enter the default set.
+* Fabrication robustness (``fab_robust``, off unless ``samples`` K > 0): the goal part of the loss becomes
+  a statistic over K fabricated copies of the cell, drawn once per run (``_tolerance.draw`` with the
+  option's seed: common random numbers, so the step stays one deterministic pure function and a resumed
+  run is bit-for-bit the uninterrupted one) and built by ``_tolerance.perturb`` with the deck's
+  ``tolerance`` σ times ``sigma_scale``. Copy k's shortfalls are r_k = r* + (r(p_k) − r(p)), where r* is
+  the nominal cell's combined worst case over the robust models above and r(·) is evaluated under the
+  first (cheapest) robust model only: each copy inherits the nominal cell's gap between the worst model
+  and the cheapest one (first order in the fab error), which costs K cheap forwards per step instead of
+  K × n_models. Copy k's loss is L_k = Σ_g w_g relu(r_k,g + m)²; the goal part is their mean
+  (``statistic: mean``, the expected loss) or their q-quantile (``statistic: quantile``), the sorted-order
+  statistic with linear interpolation, s_(⌊h⌋) + (h − ⌊h⌋)(s_(⌊h⌋+1) − s_(⌊h⌋)) at h = q(K − 1) (NumPy's
+  default ``linear`` method; Hyndman & Fan, Am. Stat. 50, 361 (1996), type 7): exact, with a gradient
+  through the two copies it picks. At σ = 0 every copy is the nominal cell and the loss is the nominal
+  loss. The rule penalty stays on the nominal cell.
 * m = ``goal_margin`` (normalised units) makes the optimiser aim a little past each target so that the
   grid snap does not undo it; P and its margin are in ``invdesign._penalties``; λ_rules = ``rules_weight``.
 
@@ -77,10 +91,22 @@ ROBUST_GAP_THRESHOLD_NM = 40.0
 #: 0.08 ceiling; depth 0.67 against 0.8 under moroz), so N = 1 joins the default set.
 ROBUST_DEFAULT_RESOLUTIONS = (1, 3, 5)
 OPTIMIZERS = ("adam", "lbfgs")
+FAB_STATISTICS = ("mean", "quantile")
 
 
 class Interrupted(Exception):
     """The run stopped on a signal after writing a checkpoint."""
+
+
+@dataclasses.dataclass(frozen=True)
+class FabRobust:
+    """Loss over K fabricated copies of the cell (module docstring, "Fabrication robustness")."""
+
+    samples: int                 # K copies, drawn once per run
+    statistic: str = "mean"      # "mean" (expected loss) or "quantile"
+    quantile: float = 0.9        # q of the quantile statistic, in (0, 1)
+    sigma_scale: float = 1.0     # factor on every σ of the deck's tolerance block
+    seed: int = 0                # seed of the draws (``_tolerance.draw``)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -105,6 +131,32 @@ class RunOptions:
     accept_flagged: bool = False
     report_resolutions: tuple = DEFAULT_RESOLUTIONS
     report_corrections: tuple = DEFAULT_CORRECTIONS
+    fab_robust: FabRobust | None = None   # None: the nominal cell only
+
+
+def parse_fab_robust(doc, fab: FabDeck) -> FabRobust | None:
+    """The ``fab_robust`` block (None when absent or ``samples`` is 0); ``SpecError`` naming the key."""
+    from ._spec import _Reader
+
+    r = _Reader(doc if doc is not None else {}, "fab_robust", {
+        "samples": "fabricated copies per step, 0 to switch off (integer >= 0)",
+        "statistic": f"one of {', '.join(FAB_STATISTICS)}", "quantile": "q of statistic quantile, in (0, 1)",
+        "sigma_scale": "factor on every sigma of the deck's tolerance block (>= 0)",
+        "seed": "seed of the draws (integer)"})
+    k = r.number("samples", 0, integer=True, minimum=0)
+    statistic = r.text("statistic", "mean", choices=FAB_STATISTICS)
+    q = r.number("quantile", 0.9, positive=True)
+    if q >= 1:
+        raise SpecError(f"fab_robust.quantile must lie in (0, 1), got {q:g}")
+    out = FabRobust(k, statistic, q, r.number("sigma_scale", 1.0, minimum=0.0),
+                    r.number("seed", 0, integer=True))
+    if k == 0:
+        return None
+    if fab.tolerance is None:
+        raise SpecError(f"fab_robust.samples = {k} needs the fab deck's tolerance block, and deck "
+                        f"'{fab.name}' has none; add one (tolerance: {{width_nm: {{global, local}}, ...}}, "
+                        f"1-sigma values) or set fab_robust.samples=0")
+    return out
 
 
 def resolve_resolutions(requested, fab: FabDeck, dipoles_per_rod: int,
@@ -185,7 +237,8 @@ def parse_run_options(cfg: dict, fab: FabDeck, model: dict) -> RunOptions:
         temperature=rob.number("temperature", 0.0, minimum=0.0),
         checkpoint_every=ck.number("every", 10, integer=True, minimum=1),
         accept_flagged=rob.flag("accept_flagged", False),
-        report_resolutions=tuple(int(n) for n in rep_res), report_corrections=tuple(rep_cor))
+        report_resolutions=tuple(int(n) for n in rep_res), report_corrections=tuple(rep_cor),
+        fab_robust=parse_fab_robust(cfg.get("fab_robust"), fab))
 
 
 # ------------------------------------------------------------------------------------------ setup
@@ -261,6 +314,8 @@ def build_setup(spec: Spec, fab: FabDeck, cell: CellSpec, opts: RunOptions) -> S
                      for n, c in opts.models)
     doc = {"spec": dataclasses.asdict(spec), "fab": dataclasses.asdict(fab),
            "cell": dataclasses.asdict(cell), "opts": dataclasses.asdict(opts)}
+    if opts.fab_robust is None:  # runs without the option keep the fingerprints they had before it existed
+        del doc["opts"]["fab_robust"]
     fp = hashlib.sha256(json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()[:16]
     return Setup(spec, fab, cell, opts, family, wl, i0, windows, depths, problems,
                  start_design, scales, fp)
@@ -326,8 +381,57 @@ def goal_loss(worst, setup: Setup):
     return jnp.sum(w * jax.nn.relu(worst + setup.opts.goal_margin) ** 2)
 
 
+def fab_statistic(losses, fr: FabRobust, reference=0.0):
+    """The goal part of a fab-robust loss from the copies' losses (K,): their mean or q-quantile (the
+    sorted-order statistic with linear interpolation, NumPy's ``linear`` method; module docstring).
+
+    The mean is summed as reference + mean(losses − reference) with the nominal loss as reference: the
+    same number, but exactly the nominal loss when every copy is the nominal cell (σ = 0), where a plain
+    sum of K equal terms can round in its last bit.
+    """
+    if fr.statistic == "mean":
+        return reference + jnp.mean(losses - reference)
+    h = fr.quantile * (losses.shape[0] - 1)
+    lo = int(math.floor(h))
+    s = jnp.sort(losses)
+    if lo + 1 >= losses.shape[0]:
+        return s[lo]
+    return s[lo] + (h - lo) * (s[lo + 1] - s[lo])
+
+
+def fab_draws(setup: Setup) -> tuple[dict, dict]:
+    """(z, σ) of a fab-robust run: the fixed standard normals of the K copies ({source: (K, ...)}) and the
+    deck's σ times ``sigma_scale`` ({source: float}); ``_tolerance.draw`` and ``_tolerance.sigmas``."""
+    from ._tolerance import draw, sigmas
+
+    fr = setup.opts.fab_robust
+    z = draw(fr.seed, fr.samples, len(setup.start_design.elements))
+    return z, sigmas(setup.fab.tolerance, fr.sigma_scale)
+
+
+def _fab_copies(setup: Setup):
+    """(params, r_nominal, worst) -> (K, n_goals) shortfalls r_k = worst + (r(p_k) − r_nominal) of the
+    fabricated copies under the first robust model (module docstring)."""
+    from ._tolerance import perturb
+
+    z, sigma = fab_draws(setup)
+    z = {k: jnp.asarray(v) for k, v in z.items()}
+    pb = setup.problems[0]
+
+    def copies(params, r_nominal, worst):
+        def one(zk):
+            return goal_shortfalls(response_from_params(perturb(params, zk, sigma), pb), setup)
+
+        r = jax.vmap(one)(z)
+        return worst + (r - r_nominal)
+
+    return copies
+
+
 def make_loss(setup: Setup):
     """loss(u) -> (loss, aux) for one start's unconstrained vector u (pure; vmap/grad-safe)."""
+    fr = setup.opts.fab_robust
+    copies = None if fr is None else _fab_copies(setup)
 
     def loss_fn(u):
         params = setup.family.params(u)
@@ -336,9 +440,14 @@ def make_loss(setup: Setup):
         worst = robust_combine(per_res, setup.opts.temperature)
         gl = goal_loss(worst, setup)
         pen, parts = rule_penalty(params, setup.fab, setup.opts.gap_margin_nm)
+        aux = {"shortfalls": per_res, "worst": worst, "penalty": pen, "goal_loss": gl,
+               "min_smooth_gap_nm": parts["min_smooth_gap_nm"]}
+        if copies is not None:
+            aux["nominal_goal_loss"] = gl
+            aux["fab_losses"] = jax.vmap(lambda r: goal_loss(r, setup))(copies(params, per_res[0], worst))
+            gl = aux["goal_loss"] = fab_statistic(aux["fab_losses"], fr, gl)
         total = gl + setup.opts.rules_weight * pen
-        return total, {"shortfalls": per_res, "worst": worst, "penalty": pen, "goal_loss": gl,
-                       "min_smooth_gap_nm": parts["min_smooth_gap_nm"]}
+        return total, aux
 
     return loss_fn
 
