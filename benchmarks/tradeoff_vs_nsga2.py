@@ -47,7 +47,7 @@ def build(args):
     spec_doc["band"]["count"] = args.band_count
     spec, fab, cell = parse_spec(spec_doc), parse_fab(load("fab/ebl_fine.yaml")), parse_cell(
         load(f"cell/{args.cell}.yaml"))
-    cfg = {"optimizer": {"steps": args.anchor_steps, "starts": 2, "seed": args.seed},
+    cfg = {"optimizer": {"steps": args.anchor_steps, "starts": args.starts, "seed": args.seed},
            "robust": {"resolutions": [1], "corrections": ["kelly"]},
            "report": {"resolutions": [1], "corrections": ["kelly"]}}
     opts = opt.parse_run_options(cfg, fab, {"correction": "kelly"})
@@ -131,6 +131,7 @@ def main():
     ap.add_argument("--anchor-steps", type=int, default=80)
     ap.add_argument("--point-steps", type=int, default=40)
     ap.add_argument("--divisions", type=int, default=8)
+    ap.add_argument("--starts", type=int, default=2)
     ap.add_argument("--pop-size", type=int, default=40)
     ap.add_argument("--seed", type=int, default=0)
     args = ap.parse_args()
@@ -140,7 +141,7 @@ def main():
         state = run_front(ts, tmp, quiet=True)
     ours_s = time.perf_counter() - t0
     n_ours = int(state["evaluations"])
-    fronts = {"gradient front": (exact_front(ts, state["u"]), n_ours, ours_s)}
+    fronts = {"gradient front": (exact_front(ts, state["pool_u"]), n_ours, ours_s)}
     for mult in (1, 10):
         t0 = time.perf_counter()
         u, n = nsga2(ts, mult * n_ours, args.seed, args.pop_size)

@@ -38,7 +38,8 @@ The sweep, batched with ``jax.vmap`` over rows (one compiled step for the whole 
 2. continuation: the other lattice points in waves (``_pareto.waves``), each warm-started from its nearest
    solved neighbour, ``front.steps`` steps at ``front.lr_fraction`` of the learning rate; spare rows of a
    batch carry extra warm starts jittered by ``front.jitter`` (unconstrained units, seeded);
-3. the best iterate of every lattice point is snapped, fab-checked and re-simulated exactly
+3. the best iterate of every row (so of every lattice point, and also of the anchors' other starts and
+   the jittered warm starts) is snapped, fab-checked and re-simulated exactly
    (``_optimize.evaluate_candidate``); the front is the non-dominated set of the feasible ones.
 
 A checkpoint (``checkpoints/latest.npz``) is written after the anchors and after every wave, so a killed
@@ -389,6 +390,7 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
     if saved is None:
         state = {"u": np.zeros((n, nfree)), "loss": np.full(n, np.inf), "f": np.full((n, m), np.inf),
                  "done": np.zeros(n, bool), "z": np.zeros(m), "span": np.ones(m),
+                 "pool_u": np.zeros((0, nfree)), "pool_point": np.zeros(0, int), "pool_loss": np.zeros(0),
                  "evaluations": np.zeros((), int), "phases": []}
     else:
         arrays, header = saved
@@ -411,6 +413,7 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
                 k = i * opts.starts + int(np.argmin(bl[i * opts.starts:(i + 1) * opts.starts]))
                 state["u"][v], state["loss"][v], state["f"][v] = bu[k], bl[k], bf[k]
                 state["done"][v] = True
+            _pool(state, bu, np.repeat(verts, opts.starts), bl)
             payoff = state["f"][verts]
             ideal, nadir = payoff.min(axis=0), payoff.max(axis=0)
             span = np.maximum(nadir - ideal, 1e-3 * scales)
@@ -445,6 +448,7 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
                 k = mine[int(np.argmin(bl[mine]))]
                 state["u"][p], state["loss"][p], state["f"][p] = bu[k], bl[k], bf[k]
                 state["done"][p] = True
+            _pool(state, bu, np.array([p for p, _ in idx]), bl)
             state["evaluations"] = state["evaluations"] + rows * fr.steps
             state["phases"].append({"phase": f"wave {ci + 1}", "points": [p for p, _ in chunk],
                                     "warm_from": [s for _, s in chunk], "rows": rows, "steps": fr.steps,
@@ -458,19 +462,28 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
 
 
 # ----------------------------------------------------------------------------------- evaluation
+def _pool(state, u, points, loss) -> None:
+    """Keep every row's best iterate (anchors' other starts, jittered warm starts) as a candidate too."""
+    state["pool_u"] = np.concatenate([state["pool_u"], u])
+    state["pool_point"] = np.concatenate([state["pool_point"], np.asarray(points, int)])
+    state["pool_loss"] = np.concatenate([state["pool_loss"], loss])
+
+
 def evaluate_front(ts: TradeSetup, state: dict, *, with_report: bool = True) -> list[dict]:
-    """Snap, fab-check and re-simulate every lattice point (``evaluate_candidate``) and add its exact
-    objective values: the worst case over the robust models, per objective."""
+    """Snap, fab-check and re-simulate every row's best iterate (``evaluate_candidate``; the rows include
+    each lattice point's best) and add its exact objective values: the worst case over the robust
+    models, per objective. Candidate k carries ``point`` k, its ``lattice_point`` and weight."""
     setup = ts.base
     keys = list(setup.opts.models)
     if with_report:
         keys += [(n, c) for c in setup.opts.report_corrections for n in setup.opts.report_resolutions]
     opt.precompile(setup, keys)
     out = []
-    for p in range(len(ts.weights)):
-        c = opt.evaluate_candidate(setup, state["u"][p], with_report=with_report)
-        c["point"], c["weight"], c["loss"] = p, ts.weights[p].tolist(), float(state["loss"][p])
-        values = np.asarray(setup.family.values(jnp.asarray(state["u"][p])))
+    for k, (u, p) in enumerate(zip(state["pool_u"], state["pool_point"], strict=True)):
+        c = opt.evaluate_candidate(setup, u, with_report=with_report)
+        c["point"], c["lattice_point"], c["weight"] = k, int(p), ts.weights[p].tolist()
+        c["loss"] = float(state["pool_loss"][k])
+        values = np.asarray(setup.family.values(jnp.asarray(u)))
         c["parameters"] = {k: float(v) for k, v in zip(setup.family.names, values, strict=True)}
         if c.get("design") is None:
             c["objectives"], c["per_model"] = None, {}

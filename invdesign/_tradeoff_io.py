@@ -12,8 +12,9 @@ Quality, stated in ``front.json``:
 
 Files (all written atomically): ``front.csv`` (one row per front point), ``front.json`` (objectives,
 reference, quality, every front point with its objective values, parameters and the path of its
-``design.json``, and every other lattice point with the reason it is not on the front), ``front.png``
-(2 objectives: the front; 3–4: a pairwise grid), ``points/NN/design.json`` for each front point.
+``design.json``, and every other candidate with the reason it is not on the front), ``front.png``
+(2 objectives: the front; 3–4: a pairwise grid), ``points/NN/design.json`` for each front point (NN the
+candidate number; ``lattice_point`` is the weight vector's index in the lattice).
 """
 
 import io
@@ -96,19 +97,21 @@ def write_front(ts, state: dict, cands: list[dict], out_dir, *, meta: dict, plot
         rel = pathlib.Path("points") / f"{c['point']:02d}" / "design.json"
         c["design"].to_json(out / rel)
         is_knee = sel["knee"] == rank
-        points.append({"point": c["point"], "knee": is_knee, "weight": c["weight"],
+        points.append({"point": c["point"], "lattice_point": c["lattice_point"], "knee": is_knee,
+                       "weight": c["weight"],
                        "objectives": c["objectives"], "per_model": c["per_model"],
                        "parameters": c["parameters"], "design_json": str(rel), "constraints": c["goals"],
                        "convergence_flagged": c.get("flagged", False)})
-        rows.append([c["point"], int(is_knee)] + [c["objectives"][n] for n in names] + c["weight"]
-                    + [c["parameters"][p] for p in pnames] + [str(rel)])
+        rows.append([c["point"], c["lattice_point"], int(is_knee)] + [c["objectives"][n] for n in names]
+                    + c["weight"] + [c["parameters"][p] for p in pnames] + [str(rel)])
     buf = io.StringIO()
-    buf.write(",".join(["point", "knee"] + list(names) + [f"weight_{n}" for n in names] + pnames
-                       + ["design_json"]) + "\n")
+    head = ["point", "lattice_point", "knee"] + list(names) + [f"weight_{n}" for n in names] + pnames
+    buf.write(",".join(head + ["design_json"]) + "\n")
     for r in rows:
         buf.write(",".join(f"{v:.10g}" if isinstance(v, float) else str(v) for v in r) + "\n")
     atomic_write_text(out / "front.csv", buf.getvalue())
-    others = [{"point": c["point"], "weight": c["weight"], "objectives": c.get("objectives"),
+    others = [{"point": c["point"], "lattice_point": c["lattice_point"], "weight": c["weight"],
+               "objectives": c.get("objectives"),
                "status": sel["status"][i]} for i, c in enumerate(cands) if i not in sel["front"]]
     doc = {"objectives": [{"name": o.name, "sense": o.sense, "unit": o.unit, "depth": o.depth}
                           for o in ts.objectives],

@@ -63,7 +63,9 @@ def front(tmp_path_factory):
 
 def test_front_points_are_mutually_non_dominated_and_fab_clean(front):
     ts, state, cands, res, out = front
-    assert state["done"].all() and len(cands) == 5
+    # every row's best is a candidate: 2 anchors x 2 starts, then waves {1, 3} and {2} of 4 rows each
+    assert state["done"].all() and len(cands) == 12
+    assert sorted({c["lattice_point"] for c in cands}) == [0, 1, 2, 3, 4]
     pts = res["front"]
     assert len(pts) >= 3  # a real trade-off: the anchors differ and the interior fills in
     F = np.array([[p["objectives"][n] for n in OBJECTIVES] for p in pts])
@@ -81,7 +83,7 @@ def test_front_points_are_mutually_non_dominated_and_fab_clean(front):
     assert "laser" in doc["safety"].lower()
     rows = (out / "front.csv").read_text().strip().splitlines()
     assert len(rows) == 1 + len(pts)
-    assert rows[0].startswith("point,knee,insertion_loss_db,control_power_ratio")
+    assert rows[0].startswith("point,lattice_point,knee,insertion_loss_db,control_power_ratio")
     assert (out / "front.png").stat().st_size > 0
 
 
@@ -115,6 +117,7 @@ def test_stopped_sweep_resumes_to_the_same_front(front, tmp_path):
     again = run_front(ts, tmp_path, quiet=True)
     assert again["done"].all()
     np.testing.assert_allclose(again["u"], state["u"], rtol=0, atol=1e-9)
+    np.testing.assert_allclose(again["pool_u"], state["pool_u"], rtol=0, atol=1e-9)
 
 
 def test_bad_objectives_are_refused_by_name():
