@@ -33,7 +33,8 @@ is the worst case over the robust model set (combined like the goals, ``_optimiz
 The sweep, batched with ``jax.vmap`` over rows (one compiled step for the whole front):
 
 1. anchors: each lattice vertex (w = e_i, minimise objective i alone) from ``optimizer.starts`` starts (the
-   cell's and seeded random ones), ``optimizer.steps`` Adam steps; the payoff table of the anchors gives
+   cell's and seeded random ones), ``optimizer.steps`` Adam steps, the scalarisation ramped in over the
+   first ``front.anchor_ramp`` of them (constraints and rules first); the payoff table of the anchors gives
    the ideal point, the span (nadir − ideal) and z* = ideal − ``front.utopia_offset``·span;
 2. continuation: the other lattice points in waves (``_pareto.waves``), each warm-started from its nearest
    solved neighbour, ``front.steps`` steps at ``front.lr_fraction`` of the learning rate; spare rows of a
@@ -116,6 +117,7 @@ class FrontOptions:
     lr_fraction: float
     augmentation: float
     constraint_weight: float
+    anchor_ramp: float
     utopia_offset: float
     jitter: float
     reference: tuple | None
@@ -129,6 +131,7 @@ _FRONT_KEYS = {
     "lr_fraction": "peak learning rate of a warm-started point as a fraction of optimizer.learning_rate",
     "augmentation": "the augmentation coefficient of the Tchebycheff scalarisation (>= 0)",
     "constraint_weight": "weight of the constraint and rule penalty against the scalarisation (> 0)",
+    "anchor_ramp": "fraction of the anchor steps over which the scalarisation is ramped in (0-1)",
     "utopia_offset": "z* = ideal - utopia_offset * span (>= 0)",
     "jitter": "spread of extra warm starts in unconstrained units (>= 0)",
     "reference": "'auto' or a list of one reference value per objective, in the objectives' units",
@@ -180,11 +183,15 @@ def parse_front(doc, n_objectives: int) -> FrontOptions:
                         f"objective, in its unit), got {ref!r}")
     else:
         ref = tuple(float(x) for x in ref)
+    ramp = r.number("anchor_ramp", 0.4, minimum=0.0)
+    if ramp >= 1:
+        raise SpecError(f"front.anchor_ramp must be in [0, 1), got {ramp}")
     return FrontOptions(
         divisions=int(div), steps=r.number("steps", 40, integer=True, minimum=1),
         lr_fraction=r.number("lr_fraction", 0.5, positive=True),
         augmentation=r.number("augmentation", 0.01, minimum=0.0),
-        constraint_weight=r.number("constraint_weight", 20.0, positive=True),
+        constraint_weight=r.number("constraint_weight", 100.0, positive=True),
+        anchor_ramp=ramp,
         utopia_offset=r.number("utopia_offset", 0.01, minimum=0.0),
         jitter=r.number("jitter", 0.3, minimum=0.0), reference=ref,
         reference_offset=r.number("reference_offset", 0.1, positive=True),
@@ -296,11 +303,12 @@ def exact_objectives(resp, ts: TradeSetup) -> np.ndarray:
 
 
 def make_front_loss(ts: TradeSetup):
-    """loss(u, w, z, span) -> (loss, aux): the penalised augmented Tchebycheff scalarisation of one row."""
+    """loss(u, w, z, span, alpha) -> (loss, aux): the penalised augmented Tchebycheff scalarisation of one
+    row, the scalarisation weighted by alpha in [0, 1] (the anchors' feasibility-first ramp)."""
     setup, fr = ts.base, ts.front
     has_goals = len(setup.spec.goals) > 0
 
-    def loss_fn(u, w, z, span):
+    def loss_fn(u, w, z, span, alpha):
         params = setup.family.params(u)
         resps = [response_from_params(params, pb) for pb in setup.problems]
         f = opt.robust_combine(jnp.stack([smooth_objectives(r, ts) for r in resps]), setup.opts.temperature)
@@ -313,7 +321,7 @@ def make_front_loss(ts: TradeSetup):
         else:
             cons = jnp.zeros(())
         pen, _ = rule_penalty(params, setup.fab, setup.opts.gap_margin_nm)
-        total = scal + fr.constraint_weight * (cons + setup.opts.rules_weight * pen)
+        total = alpha * scal + fr.constraint_weight * (cons + setup.opts.rules_weight * pen)
         return total, {"objectives": f, "constraints": cons, "penalty": pen}
 
     return loss_fn
@@ -329,8 +337,8 @@ def compiled_front_step(ts: TradeSetup):
     loss_fn = make_front_loss(ts)
     adam = optax.scale_by_adam()
 
-    def one_step(u, state, w, z, span, lr):
-        (loss, aux), g = jax.value_and_grad(loss_fn, has_aux=True)(u, w, z, span)
+    def one_step(u, state, w, z, span, lr, alpha):
+        (loss, aux), g = jax.value_and_grad(loss_fn, has_aux=True)(u, w, z, span, alpha)
         g = jnp.where(jnp.isfinite(g), g, 0.0)
         direction, state = adam.update(g, state, u)
         return u - lr * direction, state, loss, aux
@@ -347,8 +355,12 @@ def _schedule(opts: opt.RunOptions, peak: float, steps: int, warmup: int):
         decay_steps=max(steps, warmup + 1), end_value=peak * opts.final_lr_fraction)
 
 
-def _phase(ts, u0, w, z, span, steps, peak, warmup, flag):
-    """Run one batch (rows of u0) for ``steps``; returns best u, loss and oriented objectives per row."""
+def _phase(ts, u0, w, z, span, steps, peak, warmup, flag, ramp=0.0):
+    """Run one batch (rows of u0) for ``steps``; returns best u, loss and oriented objectives per row.
+
+    ``ramp``: the scalarisation's weight alpha grows linearly from 0 to 1 over this fraction of the steps
+    (constraints and rules first); the best iterate is tracked from the first step with alpha = 1.
+    """
     init_fn, step_fn = compiled_front_step(ts)
     sched = _schedule(ts.base.opts, peak, steps, warmup)
     u, state = jnp.asarray(u0), init_fn(jnp.asarray(u0))
@@ -359,10 +371,11 @@ def _phase(ts, u0, w, z, span, steps, peak, warmup, flag):
     for s in range(steps):
         u_prev = np.asarray(u)
         lr = jnp.full(rows, float(sched(s)))
-        u, state, loss, aux = step_fn(u, state, jnp.asarray(w), zb, sb, lr)
+        alpha = min(1.0, s / (ramp * steps)) if ramp > 0 else 1.0
+        u, state, loss, aux = step_fn(u, state, jnp.asarray(w), zb, sb, lr, jnp.full(rows, alpha))
         loss = np.asarray(loss)
         finite = np.where(np.isfinite(loss), loss, np.inf)
-        better = finite < best_loss
+        better = (finite < best_loss) if alpha >= 1.0 else np.ones(rows, bool)
         best_u = np.where(better[:, None], u_prev, best_u)
         best_loss = np.where(better, finite, best_loss)
         best_f = np.where(better[:, None], np.asarray(aux["objectives"]), best_f)
@@ -408,7 +421,7 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
             w = np.repeat(ts.weights[verts], opts.starts, axis=0)
             t = time.perf_counter()
             bu, bl, bf = _phase(ts, u0, w, np.zeros(m), scales, opts.steps, opts.learning_rate,
-                                opts.warmup_steps, flag)
+                                opts.warmup_steps, flag, ramp=fr.anchor_ramp)
             for i, v in enumerate(verts):
                 k = i * opts.starts + int(np.argmin(bl[i * opts.starts:(i + 1) * opts.starts]))
                 state["u"][v], state["loss"][v], state["f"][v] = bu[k], bl[k], bf[k]
