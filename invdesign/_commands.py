@@ -1,5 +1,6 @@
 """The work behind each CLI command: config in, files out. Configs are read here and nowhere deeper."""
 
+import dataclasses
 import json
 import pathlib
 import time
@@ -107,6 +108,14 @@ def optimize(cfg) -> None:
           + (f" (several resolutions: deck min gap {fab.min_gap_nm:g} nm < "
              f"{opt.ROBUST_GAP_THRESHOLD_NM:g} nm)"
              if len(opts.resolutions) > 1 else ""))
+    fab_robust = None
+    if opts.fab_robust is not None:
+        fr = opts.fab_robust
+        fab_robust = {**dataclasses.asdict(fr), "sigma_used": opt.fab_draws(setup)[1],
+                      "tolerance_label": fab.tolerance.label, "copies_model": model_label(*opts.models[0])}
+        what = "mean" if fr.statistic == "mean" else f"{fr.quantile:g}-quantile"
+        print(f"fab-robust loss: {what} over {fr.samples} fabricated copies (deck sigma x{fr.sigma_scale:g}, "
+              f"seed {fr.seed}, fixed for the run) under {fab_robust['copies_model']}")
     if resume:
         print(f"resuming from {out}")
     try:
@@ -122,7 +131,7 @@ def optimize(cfg) -> None:
             "correction": opts.correction, "optimizer": opts.optimizer, "starts": opts.starts,
             "seed": opts.seed,
             "free_parameters": setup.family.describe(), "fab_deck": fab.name, "fab_label": fab.label,
-            "spec": spec.name, "cell": cell.name}
+            "spec": spec.name, "cell": cell.name, "fab_robust": fab_robust}
     paths = write_outputs(setup, result, final, out, meta=meta, plot=bool(plain.get("plot", True)))
     _print_verdict(setup, final, result)
     for kind, p in paths.items():
