@@ -25,7 +25,7 @@ import pathlib
 
 import numpy as np
 
-from ._design import atomic_write_text
+from ._atomic import atomic_write_text
 from ._errors import InvdesignError
 
 

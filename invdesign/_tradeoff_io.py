@@ -23,7 +23,7 @@ import pathlib
 
 import numpy as np
 
-from ._design import atomic_write_text
+from ._atomic import atomic_write_text
 from ._optimize import misses
 from ._optimize_io import _clean, _plt, _save
 from ._pareto import hypervolume, knee, non_dominated, normalise, spacing
