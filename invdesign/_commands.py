@@ -221,7 +221,8 @@ def tradeoff(cfg) -> None:
             "starts": opts.starts, "anchor_steps": opts.steps, "point_steps": ts.front.steps}
     res = write_front(ts, state, cands, out, meta=meta, plot=bool(plain.get("plot", True)))
     q = res["quality"]
-    print(f"\nfront: {q['points']} non-dominated feasible point(s) of {len(cands)} lattice points "
+    print(f"\nfront: {q['points']} non-dominated feasible point(s) of {len(cands)} checked candidates "
+          f"({len(ts.weights)} lattice points) "
           f"({int(state['evaluations'])} value-and-gradient evaluations, "
           f"{time.perf_counter() - t_start:.1f} s in all)")
     for p in res["front"]:
