@@ -52,6 +52,12 @@ def robust_loss(robust):
     return jax.jit(opt.make_loss(robust))
 
 
+@pytest.fixture(scope="module")
+def nominal_loss():
+    """The plain loss over the same models (N = 1, 3), no copies."""
+    return jax.jit(opt.make_loss(build()))
+
+
 def _copy_losses(setup, u, scale):
     """Per-copy losses recomputed outside the loss: every copy simulated on its own, unbatched."""
     params = setup.family.params(u)
@@ -79,7 +85,7 @@ def test_order_statistic_is_numpys_linear_quantile(rng):
         assert got == pytest.approx(float(np.mean(x)), rel=1e-13, abs=1e-300)
 
 
-def test_loss_is_the_statistic_of_separately_computed_copies(robust, robust_loss, rng):
+def test_loss_is_the_statistic_of_separately_computed_copies(robust, robust_loss, nominal_loss, rng):
     quant = build({"samples": K, "sigma_scale": 2.0, "seed": 3, "statistic": "quantile", "quantile": 0.9})
     quant_loss = jax.jit(opt.make_loss(quant))
     for _ in range(2):
@@ -94,7 +100,7 @@ def test_loss_is_the_statistic_of_separately_computed_copies(robust, robust_loss
         total_q, _ = quant_loss(u)
         assert float(total_q) == pytest.approx(float(np.quantile(losses, 0.9)) + pen, rel=1e-10)
         # the nominal loss is still reported and differs from the robust one
-        nominal, _ = jax.jit(opt.make_loss(build()))(u)
+        nominal, _ = nominal_loss(u)
         assert float(aux["nominal_goal_loss"]) + pen == pytest.approx(float(nominal), rel=1e-12)
 
 
@@ -111,12 +117,11 @@ def test_draws_are_fixed_for_the_run(robust, robust_loss, rng):
 
 
 @pytest.mark.parametrize("statistic", ["mean", "quantile"])
-def test_zero_sigma_is_the_nominal_loss_exactly(statistic, rng):
-    nominal = jax.jit(opt.make_loss(build()))
+def test_zero_sigma_is_the_nominal_loss_exactly(statistic, nominal_loss, rng):
     zero = jax.jit(opt.make_loss(build({"samples": K, "sigma_scale": 0.0, "statistic": statistic})))
     for _ in range(3):
         u = jnp.asarray(rng.normal(size=4))
-        assert float(zero(u)[0]) == float(nominal(u)[0])
+        assert float(zero(u)[0]) == float(nominal_loss(u)[0])
 
 
 def test_fingerprint_carries_the_option():
