@@ -32,10 +32,11 @@ is the worst case over the robust model set (combined like the goals, ``_optimiz
 
 The sweep, batched with ``jax.vmap`` over rows (one compiled step for the whole front):
 
-1. anchors: each lattice vertex (w = e_i, minimise objective i alone) from ``optimizer.starts`` starts (the
-   cell's and seeded random ones), ``optimizer.steps`` Adam steps, the scalarisation ramped in over the
-   first ``front.anchor_ramp`` of them (constraints and rules first); the payoff table of the anchors gives
-   the ideal point, the span (nadir − ideal) and z* = ideal − ``front.utopia_offset``·span;
+1. anchors: each lattice vertex (w = e_i, minimise objective i alone) from ``optimizer.starts`` starts of
+   its own (the cell's and seeded random ones), first up to ``front.feasibility_steps`` steps on the
+   constraints and rules alone (stopping once all rows meet them), then ``optimizer.steps`` Adam steps,
+   the scalarisation ramped in over the first ``front.anchor_ramp`` of them; the payoff table of the
+   anchors gives the ideal point, the span (nadir − ideal) and z* = ideal − ``front.utopia_offset``·span;
 2. continuation: the other lattice points in waves (``_pareto.waves``), each warm-started from its nearest
    solved neighbour, ``front.steps`` steps at ``front.lr_fraction`` of the learning rate; spare rows of a
    batch carry extra warm starts jittered by ``front.jitter`` (unconstrained units, seeded);
@@ -118,6 +119,7 @@ class FrontOptions:
     augmentation: float
     constraint_weight: float
     anchor_ramp: float
+    feasibility_steps: int
     utopia_offset: float
     jitter: float
     reference: tuple | None
@@ -132,6 +134,7 @@ _FRONT_KEYS = {
     "augmentation": "the augmentation coefficient of the Tchebycheff scalarisation (>= 0)",
     "constraint_weight": "weight of the constraint and rule penalty against the scalarisation (> 0)",
     "anchor_ramp": "fraction of the anchor steps over which the scalarisation is ramped in (0-1)",
+    "feasibility_steps": "at most this many constraints-only steps before the anchors (>= 0; stops once met)",
     "utopia_offset": "z* = ideal - utopia_offset * span (>= 0)",
     "jitter": "spread of extra warm starts in unconstrained units (>= 0)",
     "reference": "'auto' or a list of one reference value per objective, in the objectives' units",
@@ -195,6 +198,7 @@ def parse_front(doc, n_objectives: int) -> FrontOptions:
         augmentation=r.number("augmentation", 0.01, minimum=0.0),
         constraint_weight=r.number("constraint_weight", 100.0, positive=True),
         anchor_ramp=ramp,
+        feasibility_steps=r.number("feasibility_steps", 150, integer=True, minimum=0),
         utopia_offset=r.number("utopia_offset", 0.01, minimum=0.0),
         jitter=r.number("jitter", 0.3, minimum=0.0), reference=ref,
         reference_offset=r.number("reference_offset", 0.1, positive=True),
@@ -358,11 +362,13 @@ def _schedule(opts: opt.RunOptions, peak: float, steps: int, warmup: int):
         decay_steps=max(steps, warmup + 1), end_value=peak * opts.final_lr_fraction)
 
 
-def _phase(ts, u0, w, z, span, steps, peak, warmup, flag, ramp=0.0):
+def _phase(ts, u0, w, z, span, steps, peak, warmup, flag, ramp=0.0, feasibility=False):
     """Run one batch (rows of u0) for ``steps``; returns best u, loss and oriented objectives per row.
 
     ``ramp``: the scalarisation's weight alpha grows linearly from 0 to 1 over this fraction of the steps
     (constraints and rules first); the best iterate is tracked from the first step with alpha = 1.
+    ``feasibility``: alpha = 0 throughout (constraints and rules only) and the phase stops at the first
+    step where every row meets them with their margins (loss exactly 0). Returns also the steps run.
     """
     init_fn, step_fn = compiled_front_step(ts)
     sched = _schedule(ts.base.opts, peak, steps, warmup)
@@ -374,17 +380,19 @@ def _phase(ts, u0, w, z, span, steps, peak, warmup, flag, ramp=0.0):
     for s in range(steps):
         u_prev = np.asarray(u)
         lr = jnp.full(rows, float(sched(s)))
-        alpha = min(1.0, s / (ramp * steps)) if ramp > 0 else 1.0
+        alpha = 0.0 if feasibility else min(1.0, s / (ramp * steps)) if ramp > 0 else 1.0
         u, state, loss, aux = step_fn(u, state, jnp.asarray(w), zb, sb, lr, jnp.full(rows, alpha))
         loss = np.asarray(loss)
         finite = np.where(np.isfinite(loss), loss, np.inf)
-        better = (finite < best_loss) if alpha >= 1.0 else np.ones(rows, bool)
+        better = (finite < best_loss) if alpha >= 1.0 or feasibility else np.ones(rows, bool)
         best_u = np.where(better[:, None], u_prev, best_u)
         best_loss = np.where(better, finite, best_loss)
         best_f = np.where(better[:, None], np.asarray(aux["objectives"]), best_f)
         if flag.requested:
             raise opt.Interrupted(f"stopped by {flag.requested}; finished lattice points are checkpointed")
-    return best_u, best_loss, best_f
+        if feasibility and np.all(best_loss == 0.0):
+            return best_u, best_loss, best_f, s + 1
+    return best_u, best_loss, best_f, steps
 
 
 def _save(run_dir, ts, state):
@@ -419,12 +427,16 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
     with _checkpoint.StopFlag() as flag:
         verts = ts.vertices
         if not state["done"][verts].all():
-            starts = opt.initial_starts(setup)  # (starts, nfree)
-            u0 = np.concatenate([starts] * m)
+            wide = dataclasses.replace(setup, opts=dataclasses.replace(opts, starts=rows))
+            u0 = opt.initial_starts(wide)  # (rows, nfree): distinct starts for every anchor row
             w = np.repeat(ts.weights[verts], opts.starts, axis=0)
             t = time.perf_counter()
-            bu, bl, bf = _phase(ts, u0, w, np.zeros(m), scales, opts.steps, opts.learning_rate,
-                                opts.warmup_steps, flag, ramp=fr.anchor_ramp)
+            feas_steps = 0
+            if fr.feasibility_steps > 0:
+                u0, _, _, feas_steps = _phase(ts, u0, w, np.zeros(m), scales, fr.feasibility_steps,
+                                              opts.learning_rate, opts.warmup_steps, flag, feasibility=True)
+            bu, bl, bf, _ = _phase(ts, u0, w, np.zeros(m), scales, opts.steps, opts.learning_rate,
+                                   opts.warmup_steps, flag, ramp=fr.anchor_ramp)
             for i, v in enumerate(verts):
                 k = i * opts.starts + int(np.argmin(bl[i * opts.starts:(i + 1) * opts.starts]))
                 state["u"][v], state["loss"][v], state["f"][v] = bu[k], bl[k], bf[k]
@@ -435,13 +447,13 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
             span = np.maximum(nadir - ideal, 1e-3 * scales)
             state["span"] = span
             state["z"] = ideal - fr.utopia_offset * span
-            state["evaluations"] = state["evaluations"] + rows * opts.steps
+            state["evaluations"] = state["evaluations"] + rows * (opts.steps + feas_steps)
             state["phases"].append({"phase": "anchors", "points": [int(v) for v in verts],
-                                    "rows": rows, "steps": opts.steps,
+                                    "rows": rows, "steps": opts.steps, "feasibility_steps": feas_steps,
                                     "seconds": round(time.perf_counter() - t, 2)})
             _save(run_dir, ts, state)
-            say(f"  anchors: {m} objectives x {opts.starts} starts, {opts.steps} steps "
-                f"({time.perf_counter() - t:.1f} s)")
+            say(f"  anchors: {m} objectives x {opts.starts} starts, {feas_steps} feasibility + {opts.steps} "
+                f"steps ({time.perf_counter() - t:.1f} s)")
         plan = waves(ts.lattice, np.isin(np.arange(n), verts))
         chunks = [wave[i:i + rows] for wave in plan for i in range(0, len(wave), rows)]
         done_waves = 0
@@ -457,7 +469,7 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
             copy = np.arange(rows) // len(chunk)
             u0 = u0 + (copy > 0)[:, None] * fr.jitter * rng.standard_normal(u0.shape)
             w = np.stack([ts.weights[p] for p, _ in idx])
-            bu, bl, bf = _phase(ts, u0, w, state["z"], state["span"], fr.steps,
+            bu, bl, bf, _ = _phase(ts, u0, w, state["z"], state["span"], fr.steps,
                                 opts.learning_rate * fr.lr_fraction, max(1, fr.steps // 10), flag)
             for p, _ in chunk:
                 mine = [r for r in range(rows) if idx[r][0] == p]
