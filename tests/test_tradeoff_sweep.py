@@ -19,7 +19,8 @@ ROOT = pathlib.Path(__file__).resolve().parent.parent
 TINY = ["spec=heron_1310", "fab=ebl_fine", "cell=lone_tilt", "spec.band.count=5", "spec.band.start_nm=1290",
         "spec.band.stop_nm=1330", "robust.resolutions=[1]", "robust.corrections=[kelly]",
         "report.resolutions=[1]", "report.corrections=[kelly]", "optimizer.steps=6", "optimizer.starts=1",
-        "front.divisions=2", "front.steps=3", "quiet=true", "plot=false", "+cell.thickness_nm=30,40"]
+        "front.divisions=2", "front.steps=3", "front.feasibility_steps=6", "quiet=true", "plot=false",
+        "+cell.thickness_nm=30,40"]
 
 
 def _invdesign(*args, timeout=900):
