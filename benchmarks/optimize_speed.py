@@ -11,7 +11,7 @@
    (N = 1, 3, 5 dipoles per rod with the Kelly correction and N = 1, 3 with Moroz, the default whenever the
    deck allows gaps below 40 nm) against one nominal step (N = 1, Kelly), compile and run time.
 
-Usage:  python benchmarks/optimize_speed.py [--steps 60] [--starts 2] [--scipy-evals 400]
+Usage:  python benchmarks/optimize_speed.py [--steps 60] [--starts 2] [--scipy-evals 4000] [--optimizer lbfgs]
 """
 
 import argparse
@@ -44,10 +44,12 @@ def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--steps", type=int, default=60)
     ap.add_argument("--starts", type=int, default=2)
-    ap.add_argument("--scipy-evals", type=int, default=400, help="loss evaluations SciPy may spend per start")
+    ap.add_argument("--scipy-evals", type=int, default=4000, help="SciPy loss evaluations per start")
+    ap.add_argument("--optimizer", default="adam", choices=opt.OPTIMIZERS, help="our optimiser")
     args = ap.parse_args()
     spec, fab, cell = parse_spec(SPEC), parse_fab(FAB), parse_cell(CELL)
-    cfg = {"optimizer": {"steps": args.steps, "starts": args.starts, "learning_rate": 0.08},
+    cfg = {"optimizer": {"name": args.optimizer, "steps": args.steps, "starts": args.starts,
+                         "learning_rate": 0.08},
            "robust": {"resolutions": [1], "corrections": ["kelly"]}}
     setup = opt.build_setup(spec, fab, cell, opt.parse_run_options(cfg, fab, {"correction": "kelly"}))
     init_fn, step_fn = opt.compiled_step(setup)
@@ -55,6 +57,7 @@ def main():
     state = init_fn(u0)
     t0 = time.perf_counter()
     jax.block_until_ready(step_fn(u0, state))
+    print(f"optimizer: {args.optimizer}")
     print(f"cell: 3 rods, {len(setup.family.names)} free parameters, {len(setup.wavelengths)} wavelengths, "
           f"{args.starts} starts; step compile {time.perf_counter() - t0:.1f} s")
 
