@@ -165,6 +165,12 @@ def plot_front(ts, cands, sel, path):
                 k = front[sel["knee"]]
                 ax.scatter([k[i]], [k[j]], s=140, marker="D", facecolors="none", edgecolors="tab:red", lw=1.6,
                            label="knee", zorder=5)
+        shown = np.concatenate([front, feas]) if len(front) + len(feas) else bad
+        if len(shown):  # frame the feasible points; far-off infeasible ones may fall outside
+            for k, setlim in ((i, ax.set_xlim), (j, ax.set_ylim)):
+                lo, hi = float(np.min(shown[:, k])), float(np.max(shown[:, k]))
+                pad = 0.08 * (hi - lo) if hi > lo else 0.05 * max(abs(hi), 1.0)
+                setlim(lo - pad, hi + pad)
         ax.set_xlabel(ts.objectives[i].label(), fontsize=8)
         ax.set_ylabel(ts.objectives[j].label(), fontsize=8)
         ax.tick_params(labelsize=7)
