@@ -19,7 +19,14 @@ def build_model(cfg) -> ModelOptions:
     """ModelOptions from the ``model`` config group."""
     n = cfg.dipoles_per_rod
     n = "auto" if str(n) == "auto" else int(n)
-    return ModelOptions(dipoles_per_rod=n, correction=str(cfg.correction))
+    damping = cfg.get("size_damping", False)
+    coefficient = cfg.get("size_damping_coefficient", 1.0)
+    if not isinstance(damping, bool):
+        raise InvdesignError(f"model.size_damping must be true or false, got {damping!r}")
+    if isinstance(coefficient, int) and not isinstance(coefficient, bool):
+        coefficient = float(coefficient)
+    return ModelOptions(dipoles_per_rod=n, correction=str(cfg.correction), size_damping=damping,
+                        size_damping_coefficient=coefficient)
 
 
 def build_wavelengths(cfg) -> np.ndarray:

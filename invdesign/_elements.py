@@ -56,6 +56,11 @@ class Rod:
         """Volume, nm³."""
         return self.length * self.width * self.thickness
 
+    def surface_area(self):
+        """Surface area of the rectangular block, nm²: 2(LW + LT + WT)."""
+        lw, lt, wt = self.length * self.width, self.length * self.thickness, self.width * self.thickness
+        return 2.0 * (lw + lt + wt)
+
 
 @dataclasses.dataclass(frozen=True)
 class Disk:
@@ -83,6 +88,10 @@ class Disk:
     def volume(self):
         """Volume, nm³."""
         return math.pi / 4.0 * self.diameter**2 * self.thickness
+
+    def surface_area(self):
+        """Surface area of the cylinder (two faces and the side), nm²: πD²/2 + πDT."""
+        return math.pi * self.diameter * (0.5 * self.diameter + self.thickness)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -112,9 +121,23 @@ class Sphere:
         """Volume, nm³."""
         return 4.0 / 3.0 * math.pi * self.radius**3
 
+    def surface_area(self):
+        """Surface area, nm²: 4πR²."""
+        return 4.0 * math.pi * self.radius**2
+
 
 Rod = _pytree(Rod, ["center", "length", "width", "thickness", "angle_deg"])
 Disk = _pytree(Disk, ["center", "diameter", "thickness"])
 Sphere = _pytree(Sphere, ["center", "radius"])
 
 Element = Rod | Disk | Sphere
+
+
+def effective_length(element):
+    """Mean free path allowed by the geometry, L_eff = 4V/S in nm (sphere: 4R/3).
+
+    The geometric-probability mean chord of a convex body (E. A. Coronado and G. C. Schatz, J. Chem. Phys.
+    119, 3926 (2003)); used by size-dependent damping (``invdesign._materials.size_damping``).
+    Differentiable in the element's dimensions.
+    """
+    return 4.0 * element.volume() / element.surface_area()

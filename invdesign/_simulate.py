@@ -25,13 +25,20 @@ import numpy as np
 
 from . import _jaxsetup  # noqa: F401
 from ._chain import chain_coupling, chain_offsets, intra_chain_correction, renormalise
+from ._elements import effective_length
 from ._errors import InvdesignError
 from ._farfield import order_amplitudes
 from ._geometry import pair_gaps
 from ._lattice import Lattice, make_ewald_plan
+from ._materials.size_damping import (
+    DEFAULT_COEFFICIENT,
+    collision_increase_ev,
+    drude_size_correction,
+    free_electron_parameters,
+)
 from ._polarizability import inverse_polarizability
 from ._solve import absorbed_fraction, interaction_matrix, plane_wave_at, solve_dipoles
-from ._units import NM, k0_per_m
+from ._units import NM, ev_from_nm, k0_per_m
 
 CORRECTIONS = ("radiative", "kelly", "moroz")
 
@@ -47,10 +54,16 @@ class ModelOptions:
         at 13 (``auto_chain_length``).
       correction: long-wavelength correction of the element polarizability: "radiative" (quasi-static
         plus radiative reaction), "kelly" or "moroz" (see ``invdesign._polarizability``).
+      size_damping: if True, each metal element's free-electron damping rises by ħΔγ = A ħ v_F / L_eff
+        with L_eff = 4V/S of that element (``invdesign._materials.size_damping``), so ε becomes per
+        element and differentiable in its dimensions. Off by default (bulk ε for every element).
+      size_damping_coefficient: the dimensionless surface-scattering factor A ≥ 0 (default 1).
     """
 
     dipoles_per_rod: int | str = 1
     correction: str = "kelly"
+    size_damping: bool = False
+    size_damping_coefficient: float = DEFAULT_COEFFICIENT
 
     def __post_init__(self):
         ok_int = isinstance(self.dipoles_per_rod, int) and self.dipoles_per_rod >= 1
@@ -60,6 +73,12 @@ class ModelOptions:
         if self.correction not in CORRECTIONS:
             raise InvdesignError(f"model.correction must be one of {', '.join(CORRECTIONS)}, "
                                  f"got {self.correction!r}")
+        if not isinstance(self.size_damping, bool):
+            raise InvdesignError(f"model.size_damping must be true or false, got {self.size_damping!r}")
+        a = self.size_damping_coefficient
+        if isinstance(a, bool) or not isinstance(a, (int, float)) or not math.isfinite(a) or a < 0:
+            raise InvdesignError("model.size_damping_coefficient (surface-scattering factor A, "
+                                 f"dimensionless) must be a finite number >= 0, got {a!r}")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -132,6 +151,8 @@ class Problem:
     order_indices: np.ndarray
     chain_lengths: tuple  # dipoles per element (1 for disks and spheres), static
     shapes: tuple  # element shape names, static
+    # material name -> (Drude weight eV², ħγ eV, v_F m/s) when model.size_damping (zeros: no free electrons)
+    free_electron: dict = dataclasses.field(default_factory=dict)
 
 
 def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
@@ -151,6 +172,8 @@ def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
         mat = design.material(name)
         mat.check_range(wl, where=f"elements of material '{name}'")
         eps[name] = np.asarray(mat.permittivity(jnp.asarray(wl)), dtype=complex)
+    free = {name: free_electron_parameters(design.material(name)) or (0.0, 0.0, 0.0)
+            for name in used} if model.size_damping else {}
     n_med = design.medium_index()
     k_max = 2 * math.pi * n_med / (wl.min() * NM)
     p = design.params
@@ -161,7 +184,7 @@ def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
     plan = make_ewald_plan(a1, a2, k_max, r_max_nm=r_max, kpar_max_per_m=kpar_max, scales=period_scales)
     orders = _propagating_orders(a1, a2, k_max, kpar_max, period_scales)
     return Problem(wl, eps, n_med, incidence, model, plan, orders, chain_lengths(design, model),
-                   tuple(e.shape for e in design.elements))
+                   tuple(e.shape for e in design.elements), free)
 
 
 #: the largest chain the automatic rule picks
@@ -226,6 +249,18 @@ def _same_chain_pairs(problem: Problem):
     return i[keep], j[keep]
 
 
+def _element_eps(element, eps_bulk, free, problem: Problem):
+    """ε (n_wl,) of one element: the bulk value, plus the size-damping change when it is switched on.
+
+    ``free`` is (Drude weight eV², ħγ eV, v_F m/s), zeros for a material without free electrons.
+    """
+    if not problem.model.size_damping:
+        return eps_bulk
+    energy = ev_from_nm(jnp.asarray(problem.wavelengths_nm))
+    dg = collision_increase_ev(effective_length(element), free[2], problem.model.size_damping_coefficient)
+    return eps_bulk + drude_size_correction(energy, free[0], free[1], dg)
+
+
 def _dipoles(params, problem: Problem, k):
     """Positions (n_d, 3) m, Λ (n_wl, n_d, 3), axes (n_d, 3, 3) and chain residual (n_wl,).
 
@@ -240,11 +275,13 @@ def _dipoles(params, problem: Problem, k):
     for (_, n), elems in groups.items():
         stacked = _stack(elems)
         eps = jnp.stack([jnp.asarray(problem.eps[e.material]) for e in elems])  # (n_g, n_wl)
+        free = jnp.array([problem.free_electron.get(e.material, (0.0, 0.0, 0.0)) for e in elems])
 
-        def lam_of(el, ep):
+        def lam_of(el, ep, fe):
+            ep = _element_eps(el, ep, fe, problem)
             return inverse_polarizability(el, ep, eps_m, k, correction=problem.model.correction)[0]
 
-        lam = jax.vmap(lam_of)(stacked, eps)  # (n_g, n_wl, 3)
+        lam = jax.vmap(lam_of)(stacked, eps, free)  # (n_g, n_wl, 3)
         rot = jax.vmap(lambda el: el.axes())(stacked)  # (n_g, 3, 3)
         centre = jnp.stack([stacked.center[:, 0], stacked.center[:, 1],
                             jax.vmap(lambda el: el.height())(stacked)], axis=1) * NM  # (n_g, 3)

@@ -10,7 +10,9 @@ Design-file material entries (one JSON object per material; ``name`` is the key 
     {"model": "library", "name": "gold_rakic1998"}
 
 The analytic models (drude, lorentz_drude, constant) also accept an optional
-``"valid_range_nm": [lo, hi]``. Every mistake raises MaterialError naming the material and the field.
+``"valid_range_nm": [lo, hi]``; drude and lorentz_drude also accept an optional
+``"fermi_velocity_m_s"`` (Fermi velocity in m/s, used only by size-dependent damping).
+Every mistake raises MaterialError naming the material and the field.
 """
 
 import math
@@ -32,11 +34,12 @@ from .sellmeier import Sellmeier as Sellmeier
 from .table import TabulatedNK as TabulatedNK
 
 _RANGE = "valid_range_nm"
+_VF = "fermi_velocity_m_s"
 
 #: per model: (required keys, optional keys), excluding "model"
 _SCHEMA = {
-    "drude": ({"eps_inf", "omega_p_ev", "gamma_ev"}, {_RANGE}),
-    "lorentz_drude": ({"eps_inf", "omega_p_ev", "gamma_ev", "oscillators"}, {"drude_strength", _RANGE}),
+    "drude": ({"eps_inf", "omega_p_ev", "gamma_ev"}, {_RANGE, _VF}),
+    "lorentz_drude": ({"eps_inf", "omega_p_ev", "gamma_ev", "oscillators"}, {"drude_strength", _RANGE, _VF}),
     "constant": (set(), {"eps_real", "eps_imag", "n", "k", _RANGE}),
     "table": ({"path"}, set()),
     "library": ({"name"}, set()),
@@ -55,6 +58,7 @@ _HINT = {
     "k": "extinction coefficient (>= 0)",
     "strength": "oscillator strength f_j (>= 0)",
     "omega_ev": "oscillator resonance energy in eV (>= 0)",
+    _VF: "Fermi velocity in m/s (> 0, ~1.4e6 for gold)",
 }
 
 
@@ -226,12 +230,15 @@ def material_from_dict(d: dict, name: str, base_dir: pathlib.Path | None = None)
     _positive(omega_p, name, "omega_p_ev")
     _nonnegative(gamma, name, "gamma_ev")
     vrange = _range(body, name)
+    v_f = _number(body, _VF, name) if _VF in body else None
+    if v_f is not None:
+        _positive(v_f, name, _VF)
     if model == "drude":
-        return Drude(eps_inf, omega_p, gamma, name=name, valid_range_nm=vrange)
+        return Drude(eps_inf, omega_p, gamma, name=name, valid_range_nm=vrange, fermi_velocity_m_s=v_f)
     f0 = _number(body, "drude_strength", name) if "drude_strength" in body else 1.0
     _nonnegative(f0, name, "drude_strength")
     return LorentzDrude(eps_inf, omega_p, gamma, oscillators=_oscillators(body, name), drude_strength=f0,
-                        name=name, valid_range_nm=vrange)
+                        name=name, valid_range_nm=vrange, fermi_velocity_m_s=v_f)
 
 
 __all__ = [

@@ -51,6 +51,17 @@ def _check_range_pair(valid_range_nm, name: str) -> tuple[float, float]:
     return (lo, hi)
 
 
+def _fermi(value, name: str):
+    """Validate an optional Fermi velocity (m/s, > 0) or return None."""
+    if value is None:
+        return None
+    v = _finite(value, "fermi_velocity_m_s", name)
+    if v <= 0:
+        raise MaterialError(f"material '{name}': fermi_velocity_m_s (Fermi velocity, m/s) must be > 0, "
+                            f"got {v:g}")
+    return v
+
+
 def drude_term(energy_ev, omega_p_ev, gamma_ev):
     """Drude susceptibility −ωp²/(ω² + iγω), complex128, same shape as ``energy_ev`` (eV)."""
     w = jnp.asarray(energy_ev, dtype=jnp.float64)
@@ -74,6 +85,8 @@ class Drude(AbstractMaterial):
       name: label used in error messages.
       valid_range_nm: closed wavelength interval (lo, hi) in nm where the parameters are meant to be
         used; stored as the field ``valid_range`` (the name ``valid_range_nm`` is the method).
+      fermi_velocity_m_s: optional Fermi velocity v_F in m/s (> 0), needed only for size-dependent
+        damping (``invdesign._materials.size_damping``); None when unknown.
     """
 
     eps_inf: float
@@ -81,9 +94,12 @@ class Drude(AbstractMaterial):
     gamma_ev: float
     name: str
     valid_range: tuple[float, float]
+    fermi_velocity_m_s: float | None
 
-    def __init__(self, eps_inf, omega_p_ev, gamma_ev, name="drude", valid_range_nm=(0.0, math.inf)):
+    def __init__(self, eps_inf, omega_p_ev, gamma_ev, name="drude", valid_range_nm=(0.0, math.inf),
+                 fermi_velocity_m_s=None):
         n = str(name)
+        object.__setattr__(self, "fermi_velocity_m_s", _fermi(fermi_velocity_m_s, n))
         object.__setattr__(self, "name", n)
         object.__setattr__(self, "eps_inf", _finite(eps_inf, "eps_inf", n))
         object.__setattr__(self, "omega_p_ev", _finite(omega_p_ev, "omega_p_ev", n))
@@ -100,6 +116,10 @@ class Drude(AbstractMaterial):
         """Relative permittivity, complex128, same shape as ``wavelength_nm`` (nm, float64)."""
         w = ev_from_nm(jnp.asarray(wavelength_nm, dtype=jnp.float64))
         return self.eps_inf + drude_term(w, self.omega_p_ev, self.gamma_ev)
+
+    def free_electron(self) -> tuple[float, float]:
+        """Drude weight ωp² in eV² and damping ħγ in eV of the free-electron term."""
+        return (self.omega_p_ev**2, self.gamma_ev)
 
     def valid_range_nm(self) -> tuple[float, float]:
         """Closed wavelength interval (nm) given at construction (default: everything)."""
@@ -124,6 +144,8 @@ class LorentzDrude(AbstractMaterial):
       name: label used in error messages.
       valid_range_nm: closed wavelength interval (lo, hi) in nm where the parameters are meant to be
         used; stored as the field ``valid_range`` (the name ``valid_range_nm`` is the method).
+      fermi_velocity_m_s: optional Fermi velocity v_F in m/s (> 0), needed only for size-dependent
+        damping of the Drude part (``invdesign._materials.size_damping``); None when unknown.
     """
 
     eps_inf: float
@@ -133,10 +155,12 @@ class LorentzDrude(AbstractMaterial):
     drude_strength: float
     name: str
     valid_range: tuple[float, float]
+    fermi_velocity_m_s: float | None
 
     def __init__(self, eps_inf, omega_p_ev, gamma_ev, oscillators=(), drude_strength=1.0,
-                 name="lorentz_drude", valid_range_nm=(0.0, math.inf)):
+                 name="lorentz_drude", valid_range_nm=(0.0, math.inf), fermi_velocity_m_s=None):
         n = str(name)
+        object.__setattr__(self, "fermi_velocity_m_s", _fermi(fermi_velocity_m_s, n))
         object.__setattr__(self, "name", n)
         for field, value in (("eps_inf", eps_inf), ("omega_p_ev", omega_p_ev), ("gamma_ev", gamma_ev),
                              ("drude_strength", drude_strength)):
@@ -179,6 +203,10 @@ class LorentzDrude(AbstractMaterial):
         for f, w0, g in self.oscillators:
             eps = eps + lorentz_term(w, f, self.omega_p_ev, w0, g)
         return eps
+
+    def free_electron(self) -> tuple[float, float]:
+        """Drude weight f0 ωp² in eV² and Drude damping ħΓ0 in eV (the interband terms excluded)."""
+        return (self.drude_strength * self.omega_p_ev**2, self.gamma_ev)
 
     def valid_range_nm(self) -> tuple[float, float]:
         """Closed wavelength interval (nm) given at construction (default: everything)."""

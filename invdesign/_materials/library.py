@@ -19,6 +19,7 @@ from .._units import HC_EV_NM
 from .constant import ConstantPermittivity, from_index
 from .drude import LorentzDrude
 from .sellmeier import Sellmeier
+from .size_damping import FERMI_VELOCITY_M_S
 
 #: Fit range of the Rakić et al. (1998) models, photon energy in eV (abstract: "0.1 to 6 eV").
 RAKIC1998_RANGE_EV = (0.1, 6.0)
@@ -83,6 +84,7 @@ def _rakic(metal: str, name: str) -> LorentzDrude:
         drude_strength=p["f0"],
         name=name,
         valid_range_nm=RAKIC1998_RANGE_NM,
+        fermi_velocity_m_s=FERMI_VELOCITY_M_S[metal],
     )
 
 
