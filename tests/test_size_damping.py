@@ -11,6 +11,7 @@ Check values and their sources:
 """
 
 import math
+import pathlib
 
 import jax
 import jax.numpy as jnp
@@ -220,3 +221,19 @@ def test_errors_name_the_key():
     })
     with pytest.raises(MaterialError, match="material 'm', field 'fermi_velocity_m_s'"):
         simulate(d, [700.0], model=ModelOptions(size_damping=True))
+
+
+def test_commands_without_size_damping_refuse_it_instead_of_ignoring_it():
+    """optimize / tradeoff / tolerance rebuild their models from resolution and correction only: asking
+    them for size damping must be an error naming the key, not a silent bulk-metal run."""
+    from omegaconf import OmegaConf
+
+    from invdesign import _optimize as opt
+    from invdesign._errors import SpecError
+    from invdesign._spec import parse_fab
+
+    deck = pathlib.Path(__file__).resolve().parent.parent / "conf" / "fab" / "ebl_fine.yaml"
+    fab = parse_fab(OmegaConf.to_container(OmegaConf.load(deck)))
+    with pytest.raises(SpecError, match="model.size_damping"):
+        opt.parse_run_options({}, fab, {"correction": "kelly", "size_damping": True})
+    opt.parse_run_options({}, fab, {"correction": "kelly", "size_damping": False})  # off: accepted
