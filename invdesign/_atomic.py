@@ -41,3 +41,16 @@ def atomic_write_bytes(path, data: bytes) -> pathlib.Path:
 def atomic_write_text(path, text: str) -> pathlib.Path:
     """Write UTF-8 ``text`` to ``path`` atomically; returns the path."""
     return atomic_write_bytes(path, text.encode("utf-8"))
+
+
+def atomic_savefig(fig, path, dpi: int = 120) -> pathlib.Path:
+    """Save a matplotlib figure to ``path`` atomically (the format follows the suffix) and close it."""
+    import io
+
+    import matplotlib.pyplot as plt
+
+    path = pathlib.Path(path)
+    buf = io.BytesIO()
+    fig.savefig(buf, dpi=dpi, format=path.suffix.lstrip(".") or "png")
+    plt.close(fig)
+    return atomic_write_bytes(path, buf.getvalue())

@@ -86,19 +86,7 @@ def optimize(cfg) -> None:
 
     t_start = time.perf_counter()
     resume = cfg.get("resume")
-    if resume:
-        out = pathlib.Path(str(resume)).expanduser()
-        saved = out / "run_config.yaml"
-        if not saved.is_file():
-            raise InvdesignError(f"resume={resume}: no run_config.yaml in that folder; give the folder of an "
-                                 f"earlier 'invdesign optimize' run (runs/optimize/<timestamp>)")
-        plain = OmegaConf.to_container(OmegaConf.load(saved), resolve=True)
-        plain["quiet"], plain["plot"] = bool(cfg.get("quiet", False)), bool(cfg.get("plot", True))
-    else:
-        out = _run_dir()
-        plain = OmegaConf.to_container(cfg, resolve=True)
-        plain["resume"] = None
-        atomic_write_text(out / "run_config.yaml", OmegaConf.to_yaml(OmegaConf.create(plain)))
+    out, plain = _load_or_save_config(cfg, "optimize")
     spec = parse_spec(plain.get("spec"))
     fab = parse_fab(plain.get("fab"))
     cell = parse_cell(plain.get("cell"))

@@ -16,6 +16,7 @@ import math
 
 import numpy as np
 
+from ._atomic import atomic_savefig
 from ._layout import LayoutPlan, format_violation
 from ._layout_shapes import area, mark_polygons
 from ._layout_write import frame_tiles
@@ -221,8 +222,7 @@ def plot_cell(plan: LayoutPlan, path) -> None:
     ax.set(xlabel="x (nm)", ylabel="y (nm)",
            title=f"{plan.design.name or 'design'}: unit cell as written (grid {plan.grid_nm:g} nm; "
                  f"grey: neighbouring cells)")
-    fig.savefig(path, dpi=130)
-    plt.close(fig)
+    atomic_savefig(fig, path, dpi=130)
 
 
 def _dimension_element(ax, w) -> None:

@@ -13,6 +13,7 @@ import pathlib
 
 import numpy as np
 
+from ._atomic import atomic_savefig
 from ._design import atomic_write_text
 from ._metrics import channel_amplitudes, intensity, modulation_depth
 from ._optimize import history_columns, metrics_at_operating, misses
@@ -91,14 +92,7 @@ def write_outputs(setup, result: dict, final: dict, out_dir, *, meta: dict, plot
 
 
 def _save(fig, path):
-    import matplotlib.pyplot as plt
-
-    path = pathlib.Path(path)
-    tmp = path.with_name(f".{path.name}.tmp.png")
-    fig.savefig(tmp, dpi=120)
-    plt.close(fig)
-    tmp.replace(path)
-    return path
+    return atomic_savefig(fig, path)
 
 
 def _plt():

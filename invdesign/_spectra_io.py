@@ -6,6 +6,7 @@ import pathlib
 
 import numpy as np
 
+from ._atomic import atomic_savefig
 from ._design import atomic_write_text
 
 SAFETY_NOTE = (
@@ -81,9 +82,4 @@ def plot_spectra(resp, path, *, title: str = "") -> pathlib.Path:
     axes[1].legend(fontsize=8)
     if title:
         fig.suptitle(title)
-    path = pathlib.Path(path)
-    tmp = path.with_name(f".{path.name}.tmp.png")
-    fig.savefig(tmp, dpi=120)
-    plt.close(fig)
-    tmp.replace(path)
-    return path
+    return atomic_savefig(fig, path)
