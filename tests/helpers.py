@@ -34,3 +34,12 @@ def direct_lattice_sum(r, k, kpar, a1_nm, a2_nm, exclude_origin, decay_lengths=4
     outer = rhat[:, :, None] * rhat[:, None, :]
     dy = g[:, None, None] * (a[:, None, None] * np.eye(3) + b[:, None, None] * outer)
     return np.sum(dy * np.exp(1j * pts @ np.asarray(kpar))[:, None, None], axis=0)
+
+
+#: A small fab deck and a one-rod cell for optimiser tests (typical values, common practice, no source).
+SMALL_FAB = {"name": "f", "label": "typical values (common practice, no source)", "thickness_nm": 40.0,
+             "width_nm": {"min": 40.0, "max": 120.0}, "length_nm": {"min": 60.0, "max": 400.0},
+             "min_gap_nm": 20.0, "max_aspect": 8.0, "corner_radius_nm": 10.0, "grid_nm": 1.0,
+             "angle_step_deg": 0.5, "period_nm": {"min": 250.0, "max": 900.0}}
+SMALL_CELL = {"family": "lone_tilt", "period_nm": [500.0, 500.0],
+              "start": {"length": 200.0, "width": 60.0, "angle_deg": 30.0}}

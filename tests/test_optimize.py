@@ -11,6 +11,8 @@ import jax
 import jax.numpy as jnp
 import numpy as np
 import pytest
+from helpers import SMALL_CELL as CELL
+from helpers import SMALL_FAB as FAB
 
 from invdesign import Design, ModelOptions
 from invdesign import _optimize as opt
@@ -18,13 +20,6 @@ from invdesign._cells import concrete
 from invdesign._convergence import convergence_report, format_report
 from invdesign._simulate import forward_function
 from invdesign._spec import parse_cell, parse_fab, parse_spec
-
-FAB = {"name": "f", "label": "typical values (common practice, no source)", "thickness_nm": 40.0,
-       "width_nm": {"min": 40.0, "max": 120.0}, "length_nm": {"min": 60.0, "max": 400.0},
-       "min_gap_nm": 20.0, "max_aspect": 8.0, "corner_radius_nm": 10.0, "grid_nm": 1.0,
-       "angle_step_deg": 0.5, "period_nm": {"min": 250.0, "max": 900.0}}
-CELL = {"family": "lone_tilt", "period_nm": [500.0, 500.0],
-        "start": {"length": 200.0, "width": 60.0, "angle_deg": 30.0}}
 
 
 def spec_doc(goals):

@@ -15,6 +15,8 @@ import sys
 
 import numpy as np
 import pytest
+from helpers import SMALL_CELL as CELL
+from helpers import SMALL_FAB as FAB
 
 from invdesign import Design
 from invdesign import _optimize as opt
@@ -26,12 +28,6 @@ from invdesign._tradeoff import build_tradeoff, evaluate_front, run_front
 from invdesign._tradeoff_io import write_front
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
-FAB = {"name": "f", "label": "typical values (common practice, no source)", "thickness_nm": 40.0,
-       "width_nm": {"min": 40.0, "max": 120.0}, "length_nm": {"min": 60.0, "max": 400.0},
-       "min_gap_nm": 20.0, "max_aspect": 8.0, "corner_radius_nm": 10.0, "grid_nm": 1.0,
-       "angle_step_deg": 0.5, "period_nm": {"min": 250.0, "max": 900.0}}
-CELL = {"family": "lone_tilt", "period_nm": [500.0, 500.0],
-        "start": {"length": 200.0, "width": 60.0, "angle_deg": 30.0}}
 GOALS = [{"metric": "modulation_depth", "sense": ">=", "target": 0.8},
          {"metric": "leakage", "sense": "<=", "target": 0.15},
          {"metric": "insertion_loss_db", "sense": "<=", "target": 10.0},
