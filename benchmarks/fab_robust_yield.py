@@ -30,6 +30,7 @@ import jax
 import jax.numpy as jnp
 import numpy as np
 import yaml
+from _timing import time_calls
 from scipy import stats
 
 from invdesign import _optimize as opt
@@ -78,12 +79,7 @@ def step_seconds(setup, repeats: int = 5) -> tuple[float, float]:
     t0 = time.perf_counter()
     jax.block_until_ready(step_fn(u, state))
     compile_s = time.perf_counter() - t0
-    times = []
-    for _ in range(repeats):
-        t0 = time.perf_counter()
-        jax.block_until_ready(step_fn(u, state))
-        times.append(time.perf_counter() - t0)
-    return compile_s, float(np.median(times))
+    return compile_s, time_calls(lambda: step_fn(u, state), repeats, stat=np.median)
 
 
 def main():

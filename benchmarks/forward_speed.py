@@ -21,6 +21,7 @@ from invdesign._simulate import _dipoles, prepare
 from invdesign._units import k0_per_m
 
 sys.path.insert(0, str(pathlib.Path(__file__).parent))
+from _timing import time_calls  # noqa: E402
 from numpy_reference import zero_order_t  # noqa: E402
 
 CELL = {
@@ -38,15 +39,6 @@ CELL = {
         {"shape": "disk", "material": "au", "center": [100.0, 120.0], "diameter": 90.0, "thickness": 40.0},
     ],
 }
-
-
-def best_of(fn, repeats):
-    times = []
-    for _ in range(repeats):
-        t0 = time.perf_counter()
-        jax.block_until_ready(fn())
-        times.append(time.perf_counter() - t0)
-    return min(times)
 
 
 def main():
@@ -70,8 +62,8 @@ def main():
     t0 = time.perf_counter()
     jax.block_until_ready(vg(params))
     compile_vg = time.perf_counter() - t0
-    t_fwd = best_of(lambda: fn(params), args.repeats)
-    t_vg = best_of(lambda: vg(params), args.repeats)
+    t_fwd = time_calls(lambda: fn(params), args.repeats)
+    t_vg = time_calls(lambda: vg(params), args.repeats)
     moved = jax.tree_util.tree_map(lambda v: v * 1.001, params)
     cache = fn._cache_size()
     fn(moved)

@@ -21,6 +21,7 @@ import jax
 import jax.numpy as jnp
 import numpy as np
 import scipy.optimize
+from _timing import time_calls
 
 from invdesign import _optimize as opt
 from invdesign._simulate import response_from_params
@@ -114,17 +115,9 @@ def main():
     bare_vg = jax.jit(jax.vmap(jax.value_and_grad(bare)))
     jax.block_until_ready(bare_vg(u0))
 
-    def best_of(fn, n=5):
-        out = []
-        for _ in range(n):
-            t = time.perf_counter()
-            jax.block_until_ready(fn())
-            out.append(time.perf_counter() - t)
-        return min(out)
-
     st = init_fn(u0)
-    t_step = best_of(lambda: step_fn(u0, st))
-    t_bare = best_of(lambda: bare_vg(u0))
+    t_step = time_calls(lambda: step_fn(u0, st))
+    t_bare = time_calls(lambda: bare_vg(u0))
     # ---- robust (several model resolutions and corrections) against nominal, per step and compile
     rcfg = dict(cfg, robust={"resolutions": [1, 3, 5], "corrections": ["kelly", "moroz"]})
     rsetup = opt.build_setup(spec, fab, cell, opt.parse_run_options(rcfg, fab, {"correction": "kelly"}))
@@ -133,7 +126,7 @@ def main():
     rst = rinit(u0)
     jax.block_until_ready(rstep(u0, rst))
     t_rcompile = time.perf_counter() - t0
-    t_rstep = best_of(lambda: rstep(u0, rst))
+    t_rstep = time_calls(lambda: rstep(u0, rst))
 
     print(f"time to spec, SciPy FD L-BFGS-B / ours: {' '.join(f'{r:.1f}x' for r in ratios)} (aim >= 20x)")
     print(f"per step {1e3 * t_step:.1f} ms vs bare forward+gradient {1e3 * t_bare:.1f} ms: "

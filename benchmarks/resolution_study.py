@@ -6,11 +6,11 @@ the shift of the strongest |t_yx|² peak, and the forward and value-and-gradient
 (with the fitted scaling exponent of cost against N). Usage: python benchmarks/resolution_study.py
 """
 
-import time
 
 import jax
 import jax.numpy as jnp
 import numpy as np
+from _timing import time_calls
 
 import invdesign
 
@@ -37,13 +37,8 @@ def cell(gap_nm):
 
 
 def timed(fn, *args, repeats=3):
-    jax.block_until_ready(fn(*args))
-    best = np.inf
-    for _ in range(repeats):
-        t0 = time.perf_counter()
-        jax.block_until_ready(fn(*args))
-        best = min(best, time.perf_counter() - t0)
-    return best
+    jax.block_until_ready(fn(*args))  # compile first: only the run is timed
+    return time_calls(lambda: fn(*args), repeats)
 
 
 def main():
