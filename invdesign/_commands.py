@@ -389,3 +389,47 @@ def gather(cfg) -> None:
         print("  " + ", ".join(f"{k}={v:.4g}" if isinstance(v, float) else f"{k}={v}" for k, v in r.items()))
     for kind, p in paths.items():
         print(f"wrote {kind}: {p}")
+
+
+def run_verification(design, spec, fab, model, vopts, out_dir, *, meta: dict, plot: bool = True) -> dict:
+    """``run_verify``, then verify.json/.md/.png into ``out_dir``; prints the table."""
+    from ._verify import run_verify
+    from ._verify_io import resonance_lines, solver_lines, table_lines, write_outputs
+
+    result = run_verify(design, spec, fab, model, vopts)
+    paths = write_outputs(result, spec, out_dir, meta=meta, plot=plot)
+    print("\n".join(["", *table_lines(result), "", *solver_lines(result)]))
+    if result.get("resonance"):
+        print("\n".join(["", "resonance (largest zero-order extinction):", *resonance_lines(result)]))
+    return paths
+
+
+def verify(cfg) -> None:
+    """``invdesign verify design=PATH spec=NAME``: fast model vs the discretised solver, goal by goal."""
+    from ._spec import parse_fab, parse_spec
+    from ._tolerance import check_design
+    from ._verify import parse_verify_options
+
+    plain = OmegaConf.to_container(cfg, resolve=True)
+    spec = parse_spec(plain.get("spec"))
+    fab = parse_fab(plain.get("fab"))
+    vopts = parse_verify_options(plain.get("verification"), spec.operating_nm)
+    if not plain.get("design"):
+        raise InvdesignError("design is missing: give a design file, e.g. "
+                             "invdesign verify design=runs/optimize/<timestamp>/design.json spec=heron_1310")
+    path = pathlib.Path(str(plain["design"])).expanduser()
+    design = Design.from_json(path)
+    check_design(design, spec)
+    model = build_model(cfg.model)
+    out = _run_dir()
+    atomic_write_text(out / "run_config.yaml", OmegaConf.to_yaml(cfg))
+    design.to_json(out / "design.json")
+    print(f"verify: '{design.name or path.name}' against spec '{spec.name}' ({len(spec.goals)} goals), fast "
+          f"model {model.dipoles_per_rod} dipole(s)/rod ({model.correction}) vs the discretised solver at "
+          f"d = {', '.join(f'{d:g}' for d in vopts.spacings_nm)} nm")
+    meta = {"design": str(path), "spec": spec.name, "fab_deck": fab.name}
+    paths = run_verification(design, spec, fab, model, vopts, out, meta=meta,
+                             plot=bool(plain.get("plot", True)))
+    for kind, p in paths.items():
+        print(f"wrote {kind}: {p}")
+    print(SAFETY_NOTE)

@@ -327,6 +327,18 @@ def build_setup(spec: Spec, fab: FabDeck, cell: CellSpec, opts: RunOptions) -> S
                  start_design, scales, fp)
 
 
+def evaluation_setup(spec: Spec, fab: FabDeck, design, models: tuple, problems_fn, fingerprint: str) -> Setup:
+    """A ``Setup`` for judging a fixed design against a spec (no cell family, nothing to optimise).
+
+    ``models``: (dipoles_per_rod, correction) pairs; ``problems_fn(wavelengths) -> tuple of Problem``.
+    Used by ``tolerance`` and ``verify`` so their goals are judged exactly as the optimiser judges them.
+    """
+    wl, i0 = spec.wavelengths()
+    windows, depths = goal_windows(spec, wl, i0)
+    return Setup(spec, fab, None, RunOptions(models=tuple(models)), None, wl, i0, windows, depths,
+                 tuple(problems_fn(wl)), design, (1.0,), fingerprint)
+
+
 # ------------------------------------------------------------------------------------------ goals
 def _jones(resp, spec: Spec):
     return resp.t if spec.matrix == "t" else resp.r

@@ -50,7 +50,7 @@ import numpy as np
 from ._design import CellParams, Design
 from ._errors import SpecError
 from ._geometry import pair_gaps
-from ._optimize import RunOptions, Setup, exact_goals, goal_shortfalls, goal_windows
+from ._optimize import Setup, evaluation_setup, exact_goals, goal_shortfalls
 from ._simulate import ModelOptions, prepare, response_from_params
 from ._spec import FabDeck, FabTolerance, Spec
 
@@ -240,14 +240,12 @@ def make_evaluator(design: Design, spec: Spec, fab: FabDeck, model: ModelOptions
                    batch: int = 64) -> Evaluator:
     """Check the inputs and build the batched forward model (compiled lazily, once per process)."""
     check_design(design, spec)
-    wl, i0 = spec.wavelengths()
-    windows, depths = goal_windows(spec, wl, i0)
-    problem = prepare(design, wl, model=model)
     doc = {"spec": dataclasses.asdict(spec), "fab": dataclasses.asdict(fab), "design": design.to_dict(),
            "model": dataclasses.asdict(model)}
     fp = hashlib.sha256(json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()[:16]
-    setup = Setup(spec, fab, None, RunOptions(models=((model.dipoles_per_rod, model.correction),)), None,
-                  wl, i0, windows, depths, (problem,), design, (1.0,), fp)
+    setup = evaluation_setup(spec, fab, design, ((model.dipoles_per_rod, model.correction),),
+                             lambda wl: (prepare(design, wl, model=model),), fp)
+    problem = setup.problems[0]
     params = jax.tree_util.tree_map(lambda x: jnp.asarray(np.asarray(x, float)), design.params)
     qfn = _quantities_fn(setup)
 

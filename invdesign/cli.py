@@ -17,6 +17,7 @@ _COMMANDS = {
     "tradeoff": "a fab-checked Pareto front of 2-4 objectives: front.csv, front.json, front.png",
     "gather": "one table and plot of a sweep's runs (sweep=DIR): summary.csv, summary.png",
     "tolerance": "Monte Carlo yield of a design under the fab deck's errors: tolerance.json, plots",
+    "verify": "fast model vs the volume-discretised solver, goal by goal: verify.md, verify.json, plot",
 }
 
 
