@@ -92,6 +92,13 @@ def optimize(cfg) -> None:
     cell = parse_cell(plain.get("cell"))
     opts = opt.parse_run_options(plain, fab, plain.get("model", {}))
     setup = opt.build_setup(spec, fab, cell, opts)
+    vopts = None
+    if plain.get("verify", False) not in (True, False):
+        raise InvdesignError(f"verify must be true or false, got {plain.get('verify')!r}")
+    if plain.get("verify", False):
+        from ._verify import parse_verify_options
+
+        vopts = parse_verify_options(plain.get("verification"), spec.operating_nm)
     quiet = bool(plain.get("quiet", False))
     print(f"optimize: spec '{spec.name}' ({len(spec.goals)} goals at {spec.operating_nm:g} nm), fab deck "
           f"'{fab.name}' ({fab.label}), cell '{cell.name}' ({len(setup.family.names)} free parameters), "
@@ -129,9 +136,30 @@ def optimize(cfg) -> None:
             "spec": spec.name, "cell": cell.name, "fab_robust": fab_robust}
     paths = write_outputs(setup, result, final, out, meta=meta, plot=bool(plain.get("plot", True)))
     _print_verdict(setup, final, result)
+    if vopts is not None:
+        paths.update(_verify_final(setup, final, fab, plain, vopts, out))
     for kind, p in paths.items():
         print(f"wrote {kind}: {p}")
     print(SAFETY_NOTE)
+
+
+def _verify_final(setup, final, fab, plain, vopts, out) -> dict:
+    """``optimize verify=true``: the discretised-solver check of the returned design, into out/verify/."""
+    chosen = final["best_feasible"] or final["best_infeasible"]
+    if chosen is None or chosen.get("design") is None:
+        print("verify: no design to verify")
+        return {}
+    which = "best feasible" if final["best_feasible"] else "best infeasible"
+    print(f"\nverify: checking the {which} design with the discretised solver at d = "
+          f"{', '.join(f'{d:g}' for d in vopts.spacings_nm)} nm")
+    model = build_model(OmegaConf.create(plain.get("model", {})))
+    sub = out / "verify"
+    sub.mkdir(exist_ok=True)
+    found = run_verification(chosen["design"], setup.spec, fab, model, vopts, sub,
+                             meta={"design": str(out / "design.json"), "which": which,
+                                   "spec": setup.spec.name, "fab_deck": fab.name},
+                             plot=bool(plain.get("plot", True)))
+    return {f"verify {k}": v for k, v in found.items()}
 
 
 def _print_verdict(setup, final, result) -> None:
