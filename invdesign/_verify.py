@@ -50,13 +50,14 @@ class VerifyOptions:
       spacings_nm: grid spacings d of the discretised solver, nm, at least two, distinct, each > 0.
       tol: relative residual at which the iterative solve stops.
       scan: (start_nm, stop_nm, count) of a wider scan for the resonance shift, or None to skip it.
-      max_dipoles: refuse a spacing whose grid would hold more dipoles than this (memory guard).
+      max_grid_points: refuse a spacing whose grid (bounding box of the elements) would hold more
+        points than this, before any work (memory guard).
     """
 
     spacings_nm: tuple = (10.0, 7.5, 5.0)
     tol: float = 1e-6
     scan: tuple | None = None
-    max_dipoles: int = 400_000
+    max_grid_points: int = 400_000
 
     def __post_init__(self):
         d = self.spacings_nm
@@ -74,8 +75,9 @@ class VerifyOptions:
             if not (0 < a < b) or int(n) < 3:
                 raise InvdesignError(f"verify.scan needs 0 < start_nm < stop_nm and count >= 3; got "
                                      f"start_nm={a}, stop_nm={b}, count={n}")
-        if int(self.max_dipoles) < 1:
-            raise InvdesignError(f"verify.max_dipoles must be a positive integer; got {self.max_dipoles!r}")
+        if int(self.max_grid_points) < 1:
+            raise InvdesignError(f"verify.max_grid_points must be a positive integer; got "
+                                 f"{self.max_grid_points!r}")
 
 
 def parse_verify_options(doc, operating_nm: float) -> VerifyOptions:
@@ -88,7 +90,7 @@ def parse_verify_options(doc, operating_nm: float) -> VerifyOptions:
     r = _Reader(doc if doc is not None else {}, "verification", {
         "spacings_nm": "grid spacings of the discretised solver, nm (at least two, e.g. [10, 7.5, 5])",
         "tol": "relative residual of the iterative solve (0–1)",
-        "max_dipoles": "largest grid allowed per cell (memory guard)",
+        "max_grid_points": "largest grid (points in the elements' bounding box) allowed (memory guard)",
         "resonance_scan": "{start_nm, stop_nm, count} of the wider scan for the resonance shift"})
     spacings = r.raw("spacings_nm", [10.0, 7.5, 5.0])
     if not isinstance(spacings, (list, tuple)):
@@ -102,7 +104,8 @@ def parse_verify_options(doc, operating_nm: float) -> VerifyOptions:
         scan = (scan_r.number("start_nm", 0.6 * operating_nm, positive=True),
                 scan_r.number("stop_nm", 1.4 * operating_nm, positive=True), count)
     return VerifyOptions(spacings_nm=tuple(spacings), tol=r.number("tol", 1e-6, positive=True),
-                         scan=scan, max_dipoles=r.number("max_dipoles", 400_000, integer=True, minimum=1))
+                         scan=scan,
+                         max_grid_points=r.number("max_grid_points", 400_000, integer=True, minimum=1))
 
 
 # ------------------------------------------------------------------------------------- extrapolation
@@ -174,11 +177,11 @@ def extinction(resp) -> np.ndarray:
 
 # ----------------------------------------------------------------------------------------------- run
 def _solver_response(design, wl, spacing, opts, incidence):
-    from ._dda import dda_response
+    from ._dda import DdaOptions, dda_response
 
-    resp, info = dda_response(design, wl, spacing, incidence=incidence, tol=opts.tol,
-                              max_dipoles=opts.max_dipoles)
-    return jax.tree_util.tree_map(np.asarray, resp), info
+    resp, info = dda_response(design, wl, spacing, incidence=incidence,
+                              options=DdaOptions(tol=float(opts.tol), max_points=int(opts.max_grid_points)))
+    return jax.tree_util.tree_map(np.asarray, resp), info._asdict()
 
 
 def _goal_row(setup, goals_by_model: dict, fast_key: str, spacings, solver_keys, extrap: dict,
@@ -204,6 +207,23 @@ def _goal_row(setup, goals_by_model: dict, fast_key: str, spacings, solver_keys,
     return rows
 
 
+def check_grids(design, opts: VerifyOptions) -> list:
+    """Discretise the design at every requested spacing before any solve (cheap, NumPy); refuse spacings
+    that round to the same grid or exceed the memory guard. Returns the ``DipoleGrid``s, coarsest first."""
+    from ._dda_grid import discretise
+
+    elements = jax.tree_util.tree_map(np.asarray, design.elements)
+    grids = [discretise(elements, float(d), max_points=int(opts.max_grid_points))
+             for d in sorted(opts.spacings_nm, reverse=True)]
+    used = [g.spacing_nm for g in grids]
+    if len({round(u, 9) for u in used}) != len(used):
+        raise InvdesignError(
+            f"verification.spacings_nm {list(opts.spacings_nm)} round to the grid spacings "
+            f"{[round(u, 4) for u in used]} nm (each spacing is adjusted so the film thickness is a whole "
+            f"number of layers); pick spacings that give distinct grids")
+    return grids
+
+
 def run_verify(design, spec, fab, model: ModelOptions, opts: VerifyOptions, *,
                incidence: Incidence | None = None, log=print) -> dict:
     """Judge a design's goals by the fast model and by the discretised solver; JSON-ready result.
@@ -222,6 +242,9 @@ def run_verify(design, spec, fab, model: ModelOptions, opts: VerifyOptions, *,
     if model.size_damping:
         raise InvdesignError("verify compares bulk-permittivity models; set model.size_damping=false "
                              "(the discretised solver has no size-damping option yet)")
+    grids = check_grids(design, opts)
+    log("verify: grids " + ", ".join(f"d={g.spacing_nm:.3g} nm ({int(g.counts.sum())} dipoles)"
+                                     for g in grids))
     setup = evaluation_setup(spec, fab, design, ((model.dipoles_per_rod, model.correction),),
                              lambda wl: (), "verify")
     wl = setup.wavelengths
@@ -244,7 +267,8 @@ def run_verify(design, spec, fab, model: ModelOptions, opts: VerifyOptions, *,
         solver_info.append({"requested_spacing_nm": d, **_jsonable(info)})
         solver_resps.append(resp)
         solver_keys.append(key)
-        log(f"verify: grid d={d:g} nm: {info.get('dipoles', '?')} dipoles, {info['seconds']:.1f} s")
+        log(f"verify: grid d={float(info['spacing_nm']):.3g} nm: {info['n_dipoles']} dipoles, "
+            f"{info['seconds']:.1f} s")
     used = [float(i.get("spacing_nm", i["requested_spacing_nm"])) for i in solver_info]
     extrap_resp = extrapolated_response(used, solver_resps)
     responses["extrapolated (d → 0)"] = extrap_resp

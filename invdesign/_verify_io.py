@@ -38,16 +38,13 @@ def table_lines(result: dict) -> list[str]:
 
 
 def solver_lines(result: dict) -> list[str]:
-    lines = ["| grid spacing (nm) | dipoles | iterations (max) | worst residual | seconds |",
-             "|---|---|---|---|---|"]
+    lines = ["| grid spacing (nm) | dipoles | max \\|m\\|kd | iterations (max) | worst residual | seconds |",
+             "|---|---|---|---|---|---|"]
     for s in result["solver"]:
-        it = s.get("iterations")
-        it = max(it) if isinstance(it, list) and it else it
-        res = s.get("residual")
-        res = max(res) if isinstance(res, list) and res else res
-        d = s.get("spacing_nm", s["requested_spacing_nm"])
-        lines.append(f"| {_fmt(d)} | {s.get('dipoles', 'n/a')} | "
-                     f"{it if it is not None else 'n/a'} | {_fmt(res)} | {_fmt(s['seconds'])} |")
+        it = int(np.max(s["iterations"]))
+        res = float(np.max(s["residual"]))
+        lines.append(f"| {_fmt(s['spacing_nm'])} | {s['n_dipoles']} | {_fmt(float(np.max(s['mkd_max'])))} | "
+                     f"{it} | {res:.1e} | {_fmt(s['seconds'])} |")
     return lines
 
 
