@@ -1,0 +1,373 @@
+"""Verification solver: the volume discrete dipole approximation of a periodic cell (and of one particle).
+
+An independent, much finer model than the fast one, to check it. Every element is filled with dipoles
+on one cubic grid of spacing d (``invdesign._dda_grid``), each with the lattice-dispersion-relation (or
+Clausius–Mossotti) polarizability of its material (``invdesign._dda_polarizability``). The dipoles of
+the cell couple through the Ewald lattice Green's tensor, applied by FFT (``invdesign._dda_operator``),
+and the system
+
+    α_i⁻¹ p̃_i − k² Σ_j G_L(r_i − r_j) p̃_j = E_inc(r_i)
+
+is solved by preconditioned GMRES (``invdesign._dda_gmres``) for each input polarisation. The far field
+and the power fractions are computed from the dipoles exactly as the fast model does
+(``invdesign._farfield.order_amplitudes``), so ``dda_response`` returns the same ``Response``.
+
+Same physics as the fast model: the homogeneous medium of index ``Design.medium_index()`` (no
+substrate), the same permittivities (``prepare``), incidence from the superstrate, exp(−iωt), unit
+incident amplitude at z = 0; nm at this interface, SI inside. What differs is the resolution: no
+equivalent-ellipsoid or chain approximations, only the discretisation error of the DDA, which falls with
+d and is small for |m| k d ≲ 1 (``DdaInfo.mkd_max``) and a fine enough staircase of the shape.
+
+Absorption: A = −(k/A_cell) Σ_i Im(Λ_i) |p̃_i|² with Λ = α⁻¹ + i k³/(6π), the dipoles' work minus their
+own radiation — consistent with the LDR, whose radiative part is exactly −i k³/(6π), so R + T + A = 1
+holds to the solver tolerance. Block-Jacobi preconditioning: each dipole's own 3 × 3 block
+α_i⁻¹ I − k² G_L,self.
+
+Volume (``DdaOptions.volume``): "grid" gives every dipole the cell volume d³ (the discretised element
+has volume N_e d³, reported as ``DdaInfo.volume_ratio``); "exact" gives element e's dipoles the volume
+V_e / N_e — the per-element form of the effective-volume practice of Draine & Flatau (J. Opt. Soc. Am.
+A 11, 1491 (1994)), who choose d so that N d³ = V; here the positions stay on the common grid.
+"""
+
+import dataclasses
+import math
+import time
+from typing import NamedTuple
+
+import jax
+import jax.numpy as jnp
+import numpy as np
+
+from . import _jaxsetup  # noqa: F401
+from ._dda_gmres import SolveStats, solve
+from ._dda_grid import DipoleGrid, discretise
+from ._dda_operator import displacement_table, fft_shape, free_kernel, lattice_image_mask, lattice_kernel, make_matvec
+from ._dda_polarizability import POLARIZABILITIES, dipole_lambda, ldr_s
+from ._errors import InvdesignError
+from ._farfield import order_amplitudes
+from ._green import lattice_dyadic
+from ._lattice import Lattice
+from ._simulate import Incidence, Orders, Response, prepare
+from ._solve import plane_wave_at
+from ._units import NM, k0_per_m
+
+VOLUMES = ("grid", "exact")
+
+
+class DdaConvergenceError(InvdesignError):
+    """The iterative solve did not reach its tolerance (the message says where and what to change)."""
+
+
+@dataclasses.dataclass(frozen=True)
+class DdaOptions:
+    """Choices of the verification solver (static).
+
+    Attributes:
+      polarizability: "ldr" (lattice dispersion relation, default) or "cm" (Clausius–Mossotti with
+        radiative reaction).
+      volume: "grid" (each dipole the volume d³) or "exact" (element e's dipoles V_e/N_e each).
+      tol: relative residual ‖b − A p̃‖/‖b‖ the GMRES solve must reach.
+      restart: GMRES Krylov dimension per cycle. max_iterations: Arnoldi steps allowed per solve.
+      chunk: displacements per block when tabulating the Green's tensor (memory vs speed).
+      max_points: largest grid (points) accepted before any work.
+    """
+
+    polarizability: str = "ldr"
+    volume: str = "grid"
+    tol: float = 1e-6
+    restart: int = 40
+    max_iterations: int = 3000
+    chunk: int = 2048
+    max_points: int = 4_000_000
+
+    def __post_init__(self):
+        if self.polarizability not in POLARIZABILITIES:
+            raise InvdesignError(f"polarizability must be one of {', '.join(POLARIZABILITIES)}, got "
+                                 f"{self.polarizability!r}")
+        if self.volume not in VOLUMES:
+            raise InvdesignError(f"volume must be one of {', '.join(VOLUMES)}, got {self.volume!r}")
+        if not (isinstance(self.tol, float) and 0 < self.tol < 1):
+            raise InvdesignError(f"tol must be a float between 0 and 1 (e.g. 1e-6), got {self.tol!r}")
+        for name in ("restart", "max_iterations", "chunk", "max_points"):
+            v = getattr(self, name)
+            if isinstance(v, bool) or not isinstance(v, int) or v < 1:
+                raise InvdesignError(f"{name} must be a positive integer, got {v!r}")
+
+
+class DdaInfo(NamedTuple):
+    """What the verification solve did. n_wl wavelengths, 2 input polarisations (p/x, s/y).
+
+    Fields:
+      n_dipoles: dipoles per cell (int). spacing_nm: grid spacing used (float, nm).
+      grid_shape: (nx, ny, nz) grid points; fft_shape: (M1, M2, M3) circulant size.
+      counts: (n_el,) dipoles per element. volume_ratio: (n_el,) N_e d³ / V_e.
+      mkd_max: (n_wl,) largest |m| k d over the materials (accuracy indicator, want ≲ 1).
+      iterations: (n_wl, 2) GMRES Arnoldi steps. residual: (n_wl, 2) relative true residuals.
+      converged: bool, every solve reached ``tol``.
+      seconds: (n_wl,) wall time per wavelength (the first includes compilation).
+    """
+
+    n_dipoles: int
+    spacing_nm: float
+    grid_shape: tuple
+    fft_shape: tuple
+    counts: np.ndarray
+    volume_ratio: np.ndarray
+    mkd_max: np.ndarray
+    iterations: np.ndarray
+    residual: np.ndarray
+    converged: bool
+    seconds: np.ndarray
+
+
+@dataclasses.dataclass(frozen=True)
+class DdaSetup:
+    """Static part of a periodic verification solve (built by ``dda_setup``)."""
+
+    grid: DipoleGrid
+    problem: object  # the fast model's ``Problem`` (ε(λ), medium, Ewald plan, orders)
+    materials: tuple  # material names, in the order of the ε vector
+    material_index: np.ndarray  # (n_d,) index into ``materials``
+    volume_m3: np.ndarray  # (n_d,) dipole volumes
+    exclude: np.ndarray  # (M1, M2, M3) displacements zeroed in the kernel
+    options: DdaOptions
+
+
+def _dipole_volumes(grid: DipoleGrid, elements, volume: str) -> np.ndarray:
+    d3 = (grid.spacing_nm * NM) ** 3
+    if volume == "grid":
+        return np.full(grid.owner.shape, d3)
+    per_element = np.array([float(e.volume()) * NM**3 for e in elements]) / grid.counts
+    return per_element[grid.owner]
+
+
+def dda_setup(design, wavelengths_nm, spacing_nm, *, incidence=Incidence(),
+              options=DdaOptions()) -> DdaSetup:
+    """Check the inputs and discretise the cell (raises ``InvdesignError`` before any heavy work)."""
+    problem = prepare(design, wavelengths_nm, incidence=incidence)
+    elements = design.elements
+    grid = discretise(elements, spacing_nm, max_points=options.max_points)
+    materials = tuple(sorted({e.material for e in elements}))
+    eps_m = problem.medium_index**2
+    for name in materials:
+        if np.any(np.abs(problem.eps[name] - eps_m) < 1e-12 * eps_m):
+            raise InvdesignError(f"material '{name}' has the permittivity of the surrounding medium; "
+                                 "its dipoles would not scatter — remove those elements instead")
+    mat_of_el = np.array([materials.index(e.material) for e in elements])
+    p = design.params
+    rvec, _ = displacement_table(grid.shape, grid.spacing_nm * NM)
+    exclude = lattice_image_mask(rvec, np.asarray(p.a1), np.asarray(p.a2))
+    return DdaSetup(grid, problem, materials, mat_of_el[grid.owner],
+                    _dipole_volumes(grid, elements, options.volume), exclude, options)
+
+
+def _incident(problem):
+    """Incident direction (3,), transverse polarisations p, s (2, 3), reflected p (3,), cos θ."""
+    th = math.radians(problem.incidence.polar_deg)
+    ph = math.radians(problem.incidence.azimuth_deg)
+    s_vec = np.array([-math.sin(ph), math.cos(ph), 0.0])
+    khat = np.array([math.sin(th) * math.cos(ph), math.sin(th) * math.sin(ph), -math.cos(th)])
+    p_in = np.cross(khat, s_vec)
+    p_r = np.cross(s_vec, khat * np.array([1.0, 1.0, -1.0]))
+    return khat, np.stack([p_in, s_vec]), p_r, math.cos(th)
+
+
+def _solve_polarisations(matvec_of, alpha_inv, rhs, g_self, k, options):
+    """GMRES for each input polarisation; alpha_inv (2, n_d), rhs (2, n_d, 3) -> p̃ (2, n_d, 3), stats."""
+    n_d = rhs.shape[1]
+    blocks = alpha_inv[:, :, None, None] * jnp.eye(3) - k**2 * g_self  # (2, n_d, 3, 3)
+    inv_blocks = jnp.linalg.inv(blocks)
+
+    def one(a_inv, b, dinv):
+        mv = matvec_of(a_inv)
+
+        def flat_mv(v):
+            return mv(v.reshape(n_d, 3)).reshape(-1)
+
+        def precond(v):
+            return jnp.einsum("dab,db->da", dinv, v.reshape(n_d, 3)).reshape(-1)
+
+        x, stats = solve(flat_mv, b.reshape(-1), precond, tol=options.tol, restart=options.restart,
+                         max_iterations=options.max_iterations)
+        return x.reshape(n_d, 3), stats
+
+    return jax.vmap(one)(alpha_inv, rhs, inv_blocks)
+
+
+def _lambdas(setup, eps, k, khat, pols):
+    """Λ (2, n_d) of every dipole for each input polarisation (LDR S differs between them)."""
+    s = ldr_s(jnp.asarray(khat), jnp.asarray(pols))  # (2,)
+    eps_pts = eps[jnp.asarray(setup.material_index)]
+    return dipole_lambda(eps_pts[None], setup.problem.medium_index**2, jnp.asarray(setup.volume_m3)[None],
+                         k, s[:, None], kind=setup.options.polarizability)
+
+
+def wavelength_function(setup: DdaSetup):
+    """Pure, jit- and grad-compatible solve at one wavelength.
+
+    Returns ``fn(eps, wavelength_nm, a1_nm, a2_nm) -> (out, stats)`` with ``eps`` (n_mat,) complex
+    permittivities in the order of ``setup.materials``, the wavelength a scalar (nm), lattice vectors
+    (2,) nm; ``out`` = (t (2, 2), r (2, 2), t_pow (2, n_o), r_pow (2, n_o), absorbance (2,),
+    propagating (n_o,), t_amp (n_o, 3, 2), r_amp (n_o, 3, 2)) as in the fast model, ``stats`` a
+    ``SolveStats`` with (2,) fields.
+    """
+    problem, grid = setup.problem, setup.grid
+    shape, occupied = grid.shape, grid.occupied
+    d_m = grid.spacing_nm * NM
+    positions = jnp.asarray(grid.positions_nm() * NM)
+    khat, pols, p_r, cos_in = _incident(problem)
+    orders = jnp.asarray(problem.order_indices)
+
+    def fn(eps, wavelength_nm, a1_nm, a2_nm):
+        k = k0_per_m(wavelength_nm) * problem.medium_index
+        lattice = Lattice.from_nm(a1_nm, a2_nm)
+        kvec = k * jnp.asarray(khat)
+        kpar = kvec[:2]
+        lam = _lambdas(setup, eps, k, khat, pols)
+        alpha_inv = lam - 1j * k**3 / (6 * jnp.pi)
+        kernel_hat = lattice_kernel(shape, d_m, k, kpar, lattice, problem.plan, setup.exclude,
+                                    chunk=setup.options.chunk)
+        g_self = lattice_dyadic(jnp.zeros(3), jnp.asarray(True), k, kpar, lattice, problem.plan)
+        pols_c = jnp.asarray(pols).astype(complex)
+        rhs = plane_wave_at(positions, kvec, pols_c)
+        p, stats = _solve_polarisations(lambda a: make_matvec(kernel_hat, a, shape, occupied),
+                                        alpha_inv, rhs, g_self, k, setup.options)
+        trans, refl, kz, prop = order_amplitudes(p, positions, k, kpar, lattice, orders)
+        kz_in = k * cos_in
+        t_pow = jnp.sum(jnp.abs(trans) ** 2, axis=-1) * kz[None] / kz_in
+        t_pow = t_pow.at[:, 0].set(jnp.sum(jnp.abs(trans[:, 0] + pols_c) ** 2, axis=-1))
+        r_pow = jnp.sum(jnp.abs(refl) ** 2, axis=-1) * kz[None] / kz_in
+        t0 = jnp.einsum("oa,na->on", jnp.asarray(pols), trans[:, 0] + pols_c)
+        r0 = jnp.einsum("oa,na->on", jnp.stack([jnp.asarray(p_r), jnp.asarray(pols[1])]), refl[:, 0])
+        absorb = -(k / lattice.area()) * jnp.sum(jnp.imag(lam)[:, :, None] * jnp.abs(p) ** 2, axis=(1, 2))
+        out = (t0, r0, t_pow, r_pow, absorb, prop, trans.transpose(1, 2, 0), refl.transpose(1, 2, 0))
+        return out, stats
+
+    return fn
+
+
+def _mkd(setup, wl):
+    eps_m = setup.problem.medium_index**2
+    m = np.max([np.abs(np.sqrt(setup.problem.eps[n] / eps_m)) for n in setup.materials], axis=0)
+    k = 2 * math.pi * setup.problem.medium_index / (np.asarray(wl) * NM)
+    return m * k * setup.grid.spacing_nm * NM
+
+
+def _check(stats_list, wl, strict, tol):
+    for lam, st in zip(wl, stats_list, strict=True):
+        if strict and not bool(np.all(st.converged)):
+            raise DdaConvergenceError(
+                f"GMRES stopped at relative residual {float(np.max(st.residual)):.2e} (tolerance {tol:g}) "
+                f"after {int(np.max(st.iterations))} iterations at {lam:g} nm; raise max_iterations, "
+                "loosen tol, or pass strict=False to get the flagged result")
+
+
+def dda_response(design, wavelengths_nm, spacing_nm, *, incidence=Incidence(), options=DdaOptions(),
+                 strict=True):
+    """Spectra of a periodic cell by the volume discrete dipole approximation.
+
+    Args:
+      design: ``Design`` (nm). wavelengths_nm: (n_wl,) vacuum wavelengths, nm.
+      spacing_nm: requested dipole spacing d, nm (adjusted so the first element's thickness is a whole
+        number of layers; the spacing used is ``info.spacing_nm``).
+      incidence: ``Incidence``. options: ``DdaOptions``.
+      strict: raise ``DdaConvergenceError`` if a solve misses its tolerance (else only flag it in info).
+
+    Returns:
+      (``Response`` with the fast model's shapes and conventions (chain_residual zeros), ``DdaInfo``).
+    """
+    setup = dda_setup(design, wavelengths_nm, spacing_nm, incidence=incidence, options=options)
+    problem = setup.problem
+    wl = problem.wavelengths_nm
+    fn = jax.jit(wavelength_function(setup))
+    eps = np.stack([problem.eps[n] for n in setup.materials])  # (n_mat, n_wl)
+    a1, a2 = (jnp.asarray(v, dtype=float) for v in (design.params.a1, design.params.a2))
+    outs, stats, seconds = [], [], []
+    for i, lam in enumerate(wl):
+        start = time.perf_counter()
+        out, st = jax.block_until_ready(fn(jnp.asarray(eps[:, i]), jnp.float64(lam), a1, a2))
+        seconds.append(time.perf_counter() - start)
+        st = jax.tree_util.tree_map(np.asarray, st)
+        _check([st], [lam], strict, options.tol)
+        outs.append([np.asarray(o) for o in out])
+        stats.append(st)
+    t0, r0, t_pow, r_pow, absorb, prop, t_amp, r_amp = (np.stack(x) for x in zip(*outs, strict=True))
+    response = Response(
+        wavelengths_nm=wl, t=t0, r=r0, transmittance=t_pow.sum(axis=2), reflectance=r_pow.sum(axis=2),
+        absorbance=absorb,
+        orders=Orders(np.asarray(problem.order_indices), prop, t_pow.transpose(0, 2, 1),
+                      r_pow.transpose(0, 2, 1), t_amp, r_amp),
+        chain_residual=np.zeros(len(wl)))
+    grid = setup.grid
+    info = DdaInfo(
+        n_dipoles=int(grid.counts.sum()), spacing_nm=grid.spacing_nm, grid_shape=grid.shape,
+        fft_shape=fft_shape(grid.shape), counts=grid.counts, volume_ratio=grid.volume_ratio,
+        mkd_max=_mkd(setup, wl), iterations=np.stack([s.iterations for s in stats]),
+        residual=np.stack([s.residual for s in stats]),
+        converged=bool(all(np.all(s.converged) for s in stats)), seconds=np.array(seconds))
+    return response, info
+
+
+class DdaCrossSections(NamedTuple):
+    """Cross sections of one isolated element, nm², each (n_wl,): x-polarised light along −z."""
+
+    ext: np.ndarray
+    abs: np.ndarray
+    sca: np.ndarray
+
+
+def dda_cross_sections(element, eps, wavelengths_nm, medium_index, spacing_nm, *,
+                       options=DdaOptions()):
+    """Extinction, absorption and scattering of one element alone in a homogeneous medium (free space).
+
+    Args:
+      element: ``Rod`` / ``Disk`` / ``Sphere`` (nm). eps: (n_wl,) complex permittivity of its material.
+      wavelengths_nm: (n_wl,) vacuum wavelengths, nm. medium_index: real index of the medium.
+      spacing_nm: requested dipole spacing, nm. options: ``DdaOptions``.
+
+    Returns:
+      (``DdaCrossSections`` in nm², ``DdaInfo``). C_ext = k Im Σ E_inc*·p̃ and C_abs = −k Σ Im Λ |p̃|²
+      (the optical theorem and the dipoles' work, B. T. Draine, Astrophys. J. 333, 848 (1988)), C_sca =
+      C_ext − C_abs. Raises ``DdaConvergenceError`` if a solve misses its tolerance.
+    """
+    wl = np.atleast_1d(np.asarray(wavelengths_nm, dtype=float))
+    eps = np.broadcast_to(np.asarray(eps, dtype=complex), wl.shape)
+    grid = discretise([element], spacing_nm, max_points=options.max_points)
+    eps_m = float(medium_index) ** 2
+    d_m = grid.spacing_nm * NM
+    vol = jnp.asarray(_dipole_volumes(grid, [element], options.volume))
+    positions = jnp.asarray(grid.positions_nm() * NM)
+    khat = np.array([0.0, 0.0, -1.0])
+    pols = np.array([[1.0, 0.0, 0.0]])
+
+    @jax.jit
+    def one(eps1, lam_nm):
+        k = k0_per_m(lam_nm) * medium_index
+        s = ldr_s(jnp.asarray(khat), jnp.asarray(pols))
+        lam = dipole_lambda(eps1, eps_m, vol[None], k, s[:, None], kind=options.polarizability)
+        alpha_inv = lam - 1j * k**3 / (6 * jnp.pi)
+        kernel_hat = free_kernel(grid.shape, d_m, k, chunk=options.chunk)
+        rhs = plane_wave_at(positions, k * jnp.asarray(khat), jnp.asarray(pols).astype(complex))
+        p, stats = _solve_polarisations(lambda a: make_matvec(kernel_hat, a, grid.shape, grid.occupied),
+                                        alpha_inv, rhs, jnp.zeros((3, 3)), k, options)
+        ext = k * jnp.imag(jnp.sum(jnp.conj(rhs) * p, axis=(1, 2)))
+        absorbed = -k * jnp.sum(jnp.imag(lam)[:, :, None] * jnp.abs(p) ** 2, axis=(1, 2))
+        return ext[0], absorbed[0], stats
+
+    ext, absorbed, stats, seconds = [], [], [], []
+    for e1, lam in zip(eps, wl, strict=True):
+        start = time.perf_counter()
+        x, a, st = jax.block_until_ready(one(jnp.asarray(e1), jnp.float64(lam)))
+        seconds.append(time.perf_counter() - start)
+        st = jax.tree_util.tree_map(np.asarray, st)
+        _check([st], [lam], True, options.tol)
+        ext.append(float(x) / NM**2)
+        absorbed.append(float(a) / NM**2)
+        stats.append(st)
+    ext, absorbed = np.array(ext), np.array(absorbed)
+    m = np.abs(np.sqrt(eps / eps_m))
+    info = DdaInfo(int(grid.counts.sum()), grid.spacing_nm, grid.shape, fft_shape(grid.shape), grid.counts,
+                   grid.volume_ratio, m * 2 * math.pi * medium_index / (wl * NM) * d_m,
+                   np.stack([s.iterations for s in stats]), np.stack([s.residual for s in stats]),
+                   True, np.array(seconds))
+    return DdaCrossSections(ext, absorbed, ext - absorbed), info
