@@ -29,6 +29,8 @@ from ._elements import effective_length
 from ._errors import InvdesignError
 from ._farfield import order_amplitudes
 from ._geometry import pair_gaps
+from ._interface import DEFAULT_TOLERANCE, incident_with_reflection, make_interface_plan, order_fields
+from ._interface import reflected_coupling
 from ._lattice import Lattice, make_ewald_plan
 from ._materials.size_damping import (
     DEFAULT_COEFFICIENT,
@@ -41,6 +43,7 @@ from ._solve import absorbed_fraction, interaction_matrix, plane_wave_at, solve_
 from ._units import NM, ev_from_nm, k0_per_m
 
 CORRECTIONS = ("radiative", "kelly", "moroz")
+ENVIRONMENTS = ("averaged", "interface")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -58,12 +61,20 @@ class ModelOptions:
         with L_eff = 4V/S of that element (``invdesign._materials.size_damping``), so ε becomes per
         element and differentiable in its dimensions. Off by default (bulk ε for every element).
       size_damping_coefficient: the dimensionless surface-scattering factor A ≥ 0 (default 1).
+      environment: "averaged" (default): the cell sits in a homogeneous medium of index
+        sqrt((n_sup² + n_sub²)/2); "interface": the elements sit in the superstrate above a planar
+        interface with the substrate at z = 0, with the reflected periodic Green's tensor and Fresnel
+        plane waves (``invdesign._interface``).
+      interface_tolerance: truncation tolerance of the interface's order sum, relative to the
+        quasi-static self-image term, in (0, 1) (only used with environment "interface").
     """
 
     dipoles_per_rod: int | str = 1
     correction: str = "kelly"
     size_damping: bool = False
     size_damping_coefficient: float = DEFAULT_COEFFICIENT
+    environment: str = "averaged"
+    interface_tolerance: float = DEFAULT_TOLERANCE
 
     def __post_init__(self):
         ok_int = isinstance(self.dipoles_per_rod, int) and self.dipoles_per_rod >= 1
@@ -79,6 +90,13 @@ class ModelOptions:
         if isinstance(a, bool) or not isinstance(a, (int, float)) or not math.isfinite(a) or a < 0:
             raise InvdesignError("model.size_damping_coefficient (surface-scattering factor A, "
                                  f"dimensionless) must be a finite number >= 0, got {a!r}")
+        if self.environment not in ENVIRONMENTS:
+            raise InvdesignError(f"model.environment must be one of {', '.join(ENVIRONMENTS)}, "
+                                 f"got {self.environment!r}")
+        tol = self.interface_tolerance
+        if isinstance(tol, bool) or not isinstance(tol, (int, float)) or not 0 < tol < 1:
+            raise InvdesignError("model.interface_tolerance (relative truncation error of the interface's "
+                                 f"order sum) must be a number in (0, 1), got {tol!r}")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -153,6 +171,8 @@ class Problem:
     shapes: tuple  # element shape names, static
     # material name -> (Drude weight eV², ħγ eV, v_F m/s) when model.size_damping (zeros: no free electrons)
     free_electron: dict = dataclasses.field(default_factory=dict)
+    # ``InterfacePlan`` in the "interface" environment, None in the averaged one
+    interface: object = None
 
 
 def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
@@ -174,17 +194,26 @@ def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
         eps[name] = np.asarray(mat.permittivity(jnp.asarray(wl)), dtype=complex)
     free = {name: free_electron_parameters(design.material(name)) or (0.0, 0.0, 0.0)
             for name in used} if model.size_damping else {}
-    n_med = design.medium_index()
-    k_max = 2 * math.pi * n_med / (wl.min() * NM)
+    interface = model.environment == "interface"
+    n_med = design.superstrate_index if interface else design.medium_index()
+    k0_max = 2 * math.pi / (wl.min() * NM)
+    k_max = k0_max * n_med
     p = design.params
     a1, a2 = np.asarray(p.a1, float), np.asarray(p.a2, float)
     sin_t = math.sin(math.radians(incidence.polar_deg))
     kpar_max = k_max * abs(sin_t)
     r_max = 0.5 * (math.hypot(*a1) + math.hypot(*a2))  # bound on wrapped in-cell separations
     plan = make_ewald_plan(a1, a2, k_max, r_max_nm=r_max, kpar_max_per_m=kpar_max, scales=period_scales)
+    iplan = None
+    if interface:
+        heights = [float(e.height()) for e in design.elements]
+        iplan = make_interface_plan(a1, a2, design.superstrate_index, design.substrate_index, k0_max,
+                                    min(heights) if heights else 1.0, kpar_max_per_m=kpar_max,
+                                    tolerance=model.interface_tolerance, scales=period_scales)
+        k_max = k0_max * max(design.superstrate_index, design.substrate_index)  # orders of both media
     orders = _propagating_orders(a1, a2, k_max, kpar_max, period_scales)
     return Problem(wl, eps, n_med, incidence, model, plan, orders, chain_lengths(design, model),
-                   tuple(e.shape for e in design.elements), free)
+                   tuple(e.shape for e in design.elements), free, iplan)
 
 
 #: the largest chain the automatic rule picks
@@ -323,16 +352,28 @@ def response_from_params(params, problem: Problem) -> Response:
 
     n_d = positions.shape[0]
     pair_i, pair_j = _same_chain_pairs(problem)
+    iplan = problem.interface
+    fallback = jnp.array([math.cos(ph), math.sin(ph)])
 
-    def one(args):
-        k1, lam1 = args
-        kvec = k1 * khat_in
-        kpar = kvec[:2]
+    def system(k1, lam1, kpar):
         mat = interaction_matrix(positions, lam1, axes, k1, kpar, lattice, problem.plan)
         if pair_i.size:
             corr = intra_chain_correction(positions, axes, pair_i, pair_j, k1)
             blocks = jnp.zeros((n_d, n_d, 3, 3)).at[pair_i, pair_j].set(corr).at[pair_j, pair_i].set(corr)
             mat = mat + blocks.transpose(0, 2, 1, 3).reshape(3 * n_d, 3 * n_d)
+        if iplan is not None:
+            mat = mat - reflected_coupling(positions, k1 / iplan.n1, kpar, lattice, problem.plan, iplan,
+                                           fallback)
+        return mat
+
+    def one(args):
+        k1, lam1 = args
+        kvec = k1 * khat_in
+        kpar = kvec[:2]
+        mat = system(k1, lam1, kpar)
+        if iplan is not None:
+            return _interface_outputs(mat, positions, lam1, axes, k1, kpar, lattice, orders, iplan, pols,
+                                      fallback, math.cos(th), area)
         p = solve_dipoles(mat, plane_wave_at(positions, kvec, pols))
         trans, refl, kz, prop = order_amplitudes(p, positions, k1, kpar, lattice, orders)
         kz_in = k1 * math.cos(th)
@@ -356,6 +397,43 @@ def response_from_params(params, problem: Problem) -> Response:
         transmittance=jnp.sum(t_pow, axis=1), reflectance=jnp.sum(r_pow, axis=1), absorbance=absorb,
         orders=Orders(orders, prop, t_pow, r_pow, t_amp, r_amp), chain_residual=chain_res,
     )
+
+
+def _interface_outputs(mat, positions, lam1, axes, k1, kpar, lattice, orders, iplan, pols, fallback, cos_in,
+                       area):
+    """Solve and project one wavelength in the interface environment (same tuple as the averaged path).
+
+    Jones normalisation: t is flux-normalised, t = (ê_out · E_t) sqrt(k_z2 / k_z1,in) (k_z in each medium,
+    i.e. n cos θ), so |t_ij|² is the power fraction in output polarisation i; r needs no factor. Power per
+    order: |E|² k_z2 / k_z1,in below, |E|² k_z1 / k_z1,in above. Absorbance: the dipoles' work over the
+    incident flux through one cell, (k1 / (A cos θ)) Σ (-Im Λ) |p̃|².
+    """
+    k0 = k1 / iplan.n1
+    p = solve_dipoles(mat, incident_with_reflection(positions, k0, kpar, iplan, pols, fallback))
+    f = order_fields(p, positions, k0, kpar, lattice, orders, iplan, fallback)
+    r_s, r_p, t_s, t_p = (c[0] for c in f["fresnel"])
+    bare_t = jnp.stack([t_p * f["p_t"][0], t_s * f["s"][0]])  # bare interface, (p, s) input
+    bare_r = jnp.stack([r_p * f["p_up"][0], r_s * f["s"][0]])
+    trans = f["trans"].at[:, 0].add(bare_t)
+    refl = f["refl"].at[:, 0].add(bare_r)
+    trans = jnp.where(f["prop2"][None, :, None], trans, 0.0)
+    refl = jnp.where(f["prop1"][None, :, None], refl, 0.0)
+    kz_in = k1 * cos_in
+    kz1 = jnp.where(f["prop1"], jnp.real(f["kz1"]), 0.0)
+    kz2 = jnp.where(f["prop2"], jnp.real(f["kz2"]), 0.0)
+    t_pow = jnp.sum(jnp.abs(trans) ** 2, axis=-1) * kz2[None] / kz_in
+    r_pow = jnp.sum(jnp.abs(refl) ** 2, axis=-1) * kz1[None] / kz_in
+    out_t = jnp.stack([f["p_t"][0], f["s"][0]])
+    out_r = jnp.stack([-f["p_up"][0], f["s"][0]])  # p_r = ŝ × k̂_r, as in the averaged environment
+    flux = jnp.where(f["prop2"][0], jnp.sqrt(jnp.where(f["prop2"][0], kz2[0], kz_in) / kz_in), 0.0)
+    t0 = jnp.einsum("oa,na->on", out_t, trans[:, 0]) * flux
+    r0 = jnp.einsum("oa,na->on", out_r, refl[:, 0])
+    absorb = absorbed_fraction(p, lam1, axes, k1, area) / cos_in
+    # amplitudes: the dipoles' scattered part only (the bare interface's specular waves excluded)
+    t_amp = jnp.where(f["prop2"][None, :, None], f["trans"], 0.0)
+    r_amp = jnp.where(f["prop1"][None, :, None], f["refl"], 0.0)
+    return (t0, r0, t_pow.T, r_pow.T, absorb, f["prop1"] | f["prop2"],
+            t_amp.transpose(1, 2, 0), r_amp.transpose(1, 2, 0))
 
 
 def forward_function(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
