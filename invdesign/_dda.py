@@ -8,7 +8,8 @@ and the system
 
     α_i⁻¹ p̃_i − k² Σ_j G_L(r_i − r_j) p̃_j = E_inc(r_i)
 
-is solved by preconditioned GMRES (``invdesign._dda_gmres``) for each input polarisation. The far field
+is solved by a preconditioned Krylov method (``invdesign._dda_krylov``; COCG where the matrix is complex
+symmetric, GMRES otherwise) for each input polarisation. The far field
 and the power fractions are computed from the dipoles exactly as the fast model does
 (``invdesign._farfield.order_amplitudes``), so ``dda_response`` returns the same ``Response``.
 
@@ -39,7 +40,7 @@ import jax.numpy as jnp
 import numpy as np
 
 from . import _jaxsetup  # noqa: F401
-from ._dda_gmres import SolveStats, solve
+from ._dda_krylov import METHODS, solve
 from ._dda_grid import DipoleGrid, discretise
 from ._dda_operator import displacement_table, fft_shape, free_kernel, lattice_image_mask, lattice_kernel, make_matvec
 from ._dda_polarizability import POLARIZABILITIES, dipole_lambda, ldr_s
@@ -66,17 +67,20 @@ class DdaOptions:
       polarizability: "ldr" (lattice dispersion relation, default) or "cm" (Clausius–Mossotti with
         radiative reaction).
       volume: "grid" (each dipole the volume d³) or "exact" (element e's dipoles V_e/N_e each).
-      tol: relative residual ‖b − A p̃‖/‖b‖ the GMRES solve must reach.
-      restart: GMRES Krylov dimension per cycle. max_iterations: Arnoldi steps allowed per solve.
+      method: Krylov solver, "auto" (COCG where the system is complex symmetric — isolated targets and
+        normal incidence — else GMRES), "gmres", "bicgstab" or "cocg" (``invdesign._dda_krylov``).
+      tol: relative residual ‖b − A p̃‖/‖b‖ every solve must reach.
+      restart: GMRES Krylov dimension per cycle. max_iterations: products with A allowed per solve.
       chunk: displacements per block when tabulating the Green's tensor (memory vs speed).
       max_points: largest grid (points) accepted before any work.
     """
 
     polarizability: str = "ldr"
     volume: str = "grid"
+    method: str = "auto"
     tol: float = 1e-6
     restart: int = 40
-    max_iterations: int = 3000
+    max_iterations: int = 20000
     chunk: int = 2048
     max_points: int = 4_000_000
 
@@ -84,6 +88,8 @@ class DdaOptions:
         if self.polarizability not in POLARIZABILITIES:
             raise InvdesignError(f"polarizability must be one of {', '.join(POLARIZABILITIES)}, got "
                                  f"{self.polarizability!r}")
+        if self.method != "auto" and self.method not in METHODS:
+            raise InvdesignError(f"method must be auto or one of {', '.join(METHODS)}, got {self.method!r}")
         if self.volume not in VOLUMES:
             raise InvdesignError(f"volume must be one of {', '.join(VOLUMES)}, got {self.volume!r}")
         if not (isinstance(self.tol, float) and 0 < self.tol < 1):
@@ -102,7 +108,7 @@ class DdaInfo(NamedTuple):
       grid_shape: (nx, ny, nz) grid points; fft_shape: (M1, M2, M3) circulant size.
       counts: (n_el,) dipoles per element. volume_ratio: (n_el,) N_e d³ / V_e.
       mkd_max: (n_wl,) largest |m| k d over the materials (accuracy indicator, want ≲ 1).
-      iterations: (n_wl, 2) GMRES Arnoldi steps. residual: (n_wl, 2) relative true residuals.
+      iterations: (n_wl, 2) products with the DDA matrix per solve. residual: (n_wl, 2) relative true residuals.
       converged: bool, every solve reached ``tol``.
       seconds: (n_wl,) wall time per wavelength (the first includes compilation).
     """
@@ -172,8 +178,18 @@ def _incident(problem):
     return khat, np.stack([p_in, s_vec]), p_r, math.cos(th)
 
 
-def _solve_polarisations(matvec_of, alpha_inv, rhs, g_self, k, options):
-    """GMRES for each input polarisation; alpha_inv (2, n_d), rhs (2, n_d, 3) -> p̃ (2, n_d, 3), stats."""
+def _method(options, symmetric: bool) -> str:
+    if options.method == "auto":
+        return "cocg" if symmetric else "gmres"
+    if options.method == "cocg" and not symmetric:
+        raise InvdesignError("method cocg needs a complex symmetric system (normal incidence or an isolated "
+                             "target); use gmres or bicgstab for oblique incidence")
+    return options.method
+
+
+def _solve_polarisations(matvec_of, alpha_inv, rhs, g_self, k, options, method):
+    """Krylov solve for each input polarisation; alpha_inv (n_in, n_d), rhs (n_in, n_d, 3) -> p̃
+    (n_in, n_d, 3) and ``SolveStats`` with (n_in,) fields."""
     n_d = rhs.shape[1]
     blocks = alpha_inv[:, :, None, None] * jnp.eye(3) - k**2 * g_self  # (2, n_d, 3, 3)
     inv_blocks = jnp.linalg.inv(blocks)
@@ -187,7 +203,8 @@ def _solve_polarisations(matvec_of, alpha_inv, rhs, g_self, k, options):
         def precond(v):
             return jnp.einsum("dab,db->da", dinv, v.reshape(n_d, 3)).reshape(-1)
 
-        x, stats = solve(flat_mv, b.reshape(-1), precond, tol=options.tol, restart=options.restart,
+        x, stats = solve(flat_mv, b.reshape(-1), precond, method=method, tol=options.tol,
+                         restart=options.restart,
                          max_iterations=options.max_iterations)
         return x.reshape(n_d, 3), stats
 
@@ -217,6 +234,7 @@ def wavelength_function(setup: DdaSetup):
     positions = jnp.asarray(grid.positions_nm() * NM)
     khat, pols, p_r, cos_in = _incident(problem)
     orders = jnp.asarray(problem.order_indices)
+    method = _method(setup.options, symmetric=problem.incidence.polar_deg == 0.0)
 
     def fn(eps, wavelength_nm, a1_nm, a2_nm):
         k = k0_per_m(wavelength_nm) * problem.medium_index
@@ -231,7 +249,7 @@ def wavelength_function(setup: DdaSetup):
         pols_c = jnp.asarray(pols).astype(complex)
         rhs = plane_wave_at(positions, kvec, pols_c)
         p, stats = _solve_polarisations(lambda a: make_matvec(kernel_hat, a, shape, occupied),
-                                        alpha_inv, rhs, g_self, k, setup.options)
+                                        alpha_inv, rhs, g_self, k, setup.options, method)
         trans, refl, kz, prop = order_amplitudes(p, positions, k, kpar, lattice, orders)
         kz_in = k * cos_in
         t_pow = jnp.sum(jnp.abs(trans) ** 2, axis=-1) * kz[None] / kz_in
@@ -257,7 +275,7 @@ def _check(stats_list, wl, strict, tol):
     for lam, st in zip(wl, stats_list, strict=True):
         if strict and not bool(np.all(st.converged)):
             raise DdaConvergenceError(
-                f"GMRES stopped at relative residual {float(np.max(st.residual)):.2e} (tolerance {tol:g}) "
+                f"the iterative solve stopped at relative residual {float(np.max(st.residual)):.2e} (tolerance {tol:g}) "
                 f"after {int(np.max(st.iterations))} iterations at {lam:g} nm; raise max_iterations, "
                 "loosen tol, or pass strict=False to get the flagged result")
 
@@ -339,6 +357,7 @@ def dda_cross_sections(element, eps, wavelengths_nm, medium_index, spacing_nm, *
     positions = jnp.asarray(grid.positions_nm() * NM)
     khat = np.array([0.0, 0.0, -1.0])
     pols = np.array([[1.0, 0.0, 0.0]])
+    method = _method(options, symmetric=True)
 
     @jax.jit
     def one(eps1, lam_nm):
@@ -349,7 +368,7 @@ def dda_cross_sections(element, eps, wavelengths_nm, medium_index, spacing_nm, *
         kernel_hat = free_kernel(grid.shape, d_m, k, chunk=options.chunk)
         rhs = plane_wave_at(positions, k * jnp.asarray(khat), jnp.asarray(pols).astype(complex))
         p, stats = _solve_polarisations(lambda a: make_matvec(kernel_hat, a, grid.shape, grid.occupied),
-                                        alpha_inv, rhs, jnp.zeros((3, 3)), k, options)
+                                        alpha_inv, rhs, jnp.zeros((3, 3)), k, options, method)
         ext = k * jnp.imag(jnp.sum(jnp.conj(rhs) * p, axis=(1, 2)))
         absorbed = -k * jnp.sum(jnp.imag(lam)[:, :, None] * jnp.abs(p) ** 2, axis=(1, 2))
         return ext[0], absorbed[0], stats

@@ -1,0 +1,100 @@
+"""Cost of the verification solver (volume DDA) against the number of dipoles per cell.
+
+A realistic two-rod gold cell (400 nm square lattice, 35 nm film, glass below, air above; an invented
+layout) is discretised at spacings giving about 1k to 20k+ dipoles. Each size runs in a fresh
+subprocess so that its peak resident memory (``resource.getrusage``, ru_maxrss) is its own. Prints per
+size: dipoles, grid and FFT sizes, time per wavelength (mean over the wavelengths after the first, which
+includes compilation), time of the Green's-tensor tabulation alone, products with the DDA matrix per
+solve, peak memory; then the fitted exponents of time and memory against the dipole count.
+
+    python benchmarks/dda_scaling.py [--spacings 8 6 4.5 3.5 2.9] [--wavelengths 900 1000 1100]
+"""
+
+import argparse
+import json
+import resource
+import subprocess
+import sys
+import time
+
+import numpy as np
+
+CELL = {
+    "name": "benchmark-two-rods",
+    "lattice": {"a1": [400.0, 0.0], "a2": [0.0, 400.0]},
+    "environment": {"superstrate_index": 1.0, "substrate_index": 1.45},
+    "materials": {"au": {"model": "library", "name": "gold_rakic1998"}},
+    "elements": [
+        {"shape": "rod", "material": "au", "center": [-80.0, -60.0], "length": 200.0, "width": 50.0,
+         "thickness": 35.0, "angle_deg": 0.0},
+        {"shape": "rod", "material": "au", "center": [90.0, 60.0], "length": 160.0, "width": 50.0,
+         "thickness": 35.0, "angle_deg": 60.0},
+    ],
+}
+
+
+def one_size(spacing: float, wavelengths) -> dict:
+    import jax
+
+    from invdesign import Design
+    from invdesign._dda import DdaOptions, dda_response, dda_setup
+    from invdesign._dda_operator import lattice_kernel
+    from invdesign._lattice import Lattice
+    from invdesign._units import NM, k0_per_m
+
+    design = Design.from_json(CELL)
+    _, info = dda_response(design, wavelengths, spacing, options=DdaOptions(tol=1e-6))
+    setup = dda_setup(design, wavelengths, spacing)
+    g = setup.grid
+    k = k0_per_m(wavelengths[0]) * setup.problem.medium_index
+    lat = Lattice.from_nm(design.params.a1, design.params.a2)
+    kern = jax.jit(lambda kk: lattice_kernel(g.shape, g.spacing_nm * NM, kk, jax.numpy.zeros(2), lat,
+                                             setup.problem.plan, setup.exclude))
+    jax.block_until_ready(kern(k))
+    t0 = time.perf_counter()
+    jax.block_until_ready(kern(k))
+    t_kernel = time.perf_counter() - t0
+    return {"spacing_nm": info.spacing_nm, "dipoles": info.n_dipoles, "grid": list(info.grid_shape),
+            "fft": list(info.fft_shape), "first_s": float(info.seconds[0]),
+            "per_wl_s": float(np.mean(info.seconds[1:])), "kernel_s": t_kernel,
+            "products": float(np.mean(info.iterations[1:])), "mkd": float(np.max(info.mkd_max)),
+            "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0}
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--spacings", type=float, nargs="+", default=[8.0, 6.0, 4.5, 3.5, 2.9])
+    ap.add_argument("--wavelengths", type=float, nargs="+", default=[900.0, 1000.0, 1100.0])
+    ap.add_argument("--one", type=float, help=argparse.SUPPRESS)
+    args = ap.parse_args()
+    if len(args.wavelengths) < 2:
+        ap.error("give at least two wavelengths (the first includes compilation)")
+    if args.one is not None:
+        print(json.dumps(one_size(args.one, np.array(args.wavelengths))))
+        return
+    rows = []
+    print(f"{'d nm':>6} {'dipoles':>8} {'grid':>13} {'FFT':>13} {'s/wl':>7} {'kernel s':>8} "
+          f"{'products':>8} {'|m|kd':>6} {'peak MB':>8}")
+    for d in args.spacings:
+        cmd = [sys.executable, __file__, "--one", str(d), "--wavelengths", *map(str, args.wavelengths)]
+        out = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout.strip().splitlines()[-1]
+        r = json.loads(out)
+        rows.append(r)
+        print(f"{r['spacing_nm']:6.2f} {r['dipoles']:8d} {'x'.join(map(str, r['grid'])):>13} "
+              f"{'x'.join(map(str, r['fft'])):>13} {r['per_wl_s']:7.2f} {r['kernel_s']:8.2f} "
+              f"{r['products']:8.0f} {r['mkd']:6.3f} {r['peak_mb']:8.0f}", flush=True)
+    n = np.array([r["dipoles"] for r in rows], float)
+    if len(n) >= 2:
+        for key, label in (("per_wl_s", "time per wavelength"), ("kernel_s", "kernel tabulation"),
+                           ("products", "products per solve")):
+            slope = np.polyfit(np.log(n), np.log([r[key] for r in rows]), 1)[0]
+            print(f"fitted exponent, {label} ∝ N^{slope:.2f}")
+        base = rows[0]["peak_mb"]
+        extra = np.array([r["peak_mb"] - base for r in rows[1:]])
+        if len(extra) >= 2 and np.all(extra > 0):
+            slope = np.polyfit(np.log(n[1:]), np.log(extra), 1)[0]
+            print(f"fitted exponent, peak memory above the smallest run ∝ N^{slope:.2f}")
+
+
+if __name__ == "__main__":
+    main()
