@@ -10,6 +10,7 @@ from omegaconf import OmegaConf
 
 from ._design import Design, atomic_write_text
 from ._errors import InvdesignError
+from ._interface import DEFAULT_TOLERANCE
 from ._simulate import Incidence, ModelOptions
 from ._simulate import simulate as _simulate
 from ._spectra_io import SAFETY_NOTE, plot_spectra, write_spectra
@@ -25,8 +26,12 @@ def build_model(cfg) -> ModelOptions:
         raise InvdesignError(f"model.size_damping must be true or false, got {damping!r}")
     if isinstance(coefficient, int) and not isinstance(coefficient, bool):
         coefficient = float(coefficient)
+    tol = cfg.get("interface_tolerance", DEFAULT_TOLERANCE)
+    if isinstance(tol, int) and not isinstance(tol, bool):
+        tol = float(tol)
     return ModelOptions(dipoles_per_rod=n, correction=str(cfg.correction), size_damping=damping,
-                        size_damping_coefficient=coefficient)
+                        size_damping_coefficient=coefficient,
+                        environment=str(cfg.get("environment", "averaged")), interface_tolerance=tol)
 
 
 def build_wavelengths(cfg) -> np.ndarray:

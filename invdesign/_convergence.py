@@ -24,7 +24,8 @@ def model_label(dipoles_per_rod: int, correction: str) -> str:
 
 def convergence_report(design, wavelengths_nm, goal_fn, *, resolutions=DEFAULT_RESOLUTIONS,
                        corrections=DEFAULT_CORRECTIONS, incidence: Incidence | None = None,
-                       period_scales=(1.0,), forward_cache: dict | None = None) -> dict:
+                       period_scales=(1.0,), forward_cache: dict | None = None,
+                       environment: str = "averaged") -> dict:
     """Evaluate goals across model resolutions and corrections and flag verdicts that flip.
 
     Args:
@@ -37,6 +38,7 @@ def convergence_report(design, wavelengths_nm, goal_fn, *, resolutions=DEFAULT_R
       period_scales: passed to ``prepare`` (only matters with a ``forward_cache`` shared across designs).
       forward_cache: optional dict (dipoles, correction) -> jitted ``params -> Response`` to reuse across
         designs of the same structure; filled on a miss.
+      environment: ``ModelOptions.environment`` of every model ("averaged" or "interface").
 
     Returns:
       A JSON-ready dict: ``models`` (labels in order), ``values`` {goal: {label: value}}, ``met``
@@ -50,8 +52,9 @@ def convergence_report(design, wavelengths_nm, goal_fn, *, resolutions=DEFAULT_R
         for n in resolutions:
             key = (int(n), str(corr))
             if key not in cache:
-                fn, _ = forward_function(design, wavelengths_nm, model=ModelOptions(int(n), str(corr)),
-                                         incidence=incidence, period_scales=period_scales)
+                model = ModelOptions(int(n), str(corr), environment=environment)
+                fn, _ = forward_function(design, wavelengths_nm, model=model, incidence=incidence,
+                                         period_scales=period_scales)
                 cache[key] = fn
             params = jax.tree_util.tree_map(lambda x: jnp.asarray(np.asarray(x, dtype=float)), design.params)
             resp = jax.tree_util.tree_map(np.asarray, cache[key](params))

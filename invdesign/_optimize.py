@@ -136,6 +136,7 @@ class RunOptions:
     report_resolutions: tuple = DEFAULT_RESOLUTIONS
     report_corrections: tuple = DEFAULT_CORRECTIONS
     fab_robust: FabRobust | None = None   # None: the nominal cell only
+    environment: str = "averaged"     # ModelOptions.environment of every model of the run
 
 
 def parse_fab_robust(doc, fab: FabDeck) -> FabRobust | None:
@@ -205,6 +206,11 @@ def parse_run_options(cfg: dict, fab: FabDeck, model: dict) -> RunOptions:
     correction = str(model.get("correction", "kelly"))
     if model.get("size_damping", False):
         raise SpecError(SIZE_DAMPING_NOT_YET)
+    from ._simulate import ENVIRONMENTS
+
+    environment = str(model.get("environment", "averaged"))
+    if environment not in ENVIRONMENTS:
+        raise SpecError(f"model.environment must be one of {', '.join(ENVIRONMENTS)}, got {environment!r}")
     lr_frac = opt.number("final_lr_fraction", 0.05, positive=True)
     if lr_frac > 1:
         raise SpecError(f"optimizer.final_lr_fraction must be in (0, 1], got {lr_frac}")
@@ -244,7 +250,7 @@ def parse_run_options(cfg: dict, fab: FabDeck, model: dict) -> RunOptions:
         checkpoint_every=ck.number("every", 10, integer=True, minimum=1),
         accept_flagged=rob.flag("accept_flagged", False),
         report_resolutions=tuple(int(n) for n in rep_res), report_corrections=tuple(rep_cor),
-        fab_robust=parse_fab_robust(cfg.get("fab_robust"), fab))
+        fab_robust=parse_fab_robust(cfg.get("fab_robust"), fab), environment=environment)
 
 
 # ------------------------------------------------------------------------------------------ setup
@@ -316,18 +322,22 @@ def build_setup(spec: Spec, fab: FabDeck, cell: CellSpec, opts: RunOptions) -> S
     windows, depths = goal_windows(spec, wl, i0)
     s_lo, s_hi = family.period_scale_bounds
     scales = (s_lo, 1.0, s_hi)
-    problems = tuple(prepare(start_design, wl, model=ModelOptions(n, c), period_scales=scales)
+    problems = tuple(prepare(start_design, wl, model=ModelOptions(n, c, environment=opts.environment),
+                             period_scales=scales)
                      for n, c in opts.models)
     doc = {"spec": dataclasses.asdict(spec), "fab": dataclasses.asdict(fab),
            "cell": dataclasses.asdict(cell), "opts": dataclasses.asdict(opts)}
     if opts.fab_robust is None:  # runs without the option keep the fingerprints they had before it existed
         del doc["opts"]["fab_robust"]
+    if opts.environment == "averaged":  # likewise for the environment option
+        del doc["opts"]["environment"]
     fp = hashlib.sha256(json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()[:16]
     return Setup(spec, fab, cell, opts, family, wl, i0, windows, depths, problems,
                  start_design, scales, fp)
 
 
-def evaluation_setup(spec: Spec, fab: FabDeck, design, models: tuple, problems_fn, fingerprint: str) -> Setup:
+def evaluation_setup(spec: Spec, fab: FabDeck, design, models: tuple, problems_fn, fingerprint: str,
+                     environment: str = "averaged") -> Setup:
     """A ``Setup`` for judging a fixed design against a spec (no cell family, nothing to optimise).
 
     ``models``: (dipoles_per_rod, correction) pairs; ``problems_fn(wavelengths) -> tuple of Problem``.
@@ -335,7 +345,8 @@ def evaluation_setup(spec: Spec, fab: FabDeck, design, models: tuple, problems_f
     """
     wl, i0 = spec.wavelengths()
     windows, depths = goal_windows(spec, wl, i0)
-    return Setup(spec, fab, None, RunOptions(models=tuple(models)), None, wl, i0, windows, depths,
+    return Setup(spec, fab, None, RunOptions(models=tuple(models), environment=environment), None, wl, i0,
+                 windows, depths,
                  tuple(problems_fn(wl)), design, (1.0,), fingerprint)
 
 
@@ -676,7 +687,8 @@ def _forward(setup: Setup, n: int, correction: str):
     cache = forward_cache(setup)
     key = (int(n), str(correction))
     if key not in cache:
-        pb = prepare(setup.start_design, setup.wavelengths, model=ModelOptions(int(n), str(correction)),
+        pb = prepare(setup.start_design, setup.wavelengths,
+                     model=ModelOptions(int(n), str(correction), environment=setup.opts.environment),
                      period_scales=setup.period_scales)
         cache[key] = jax.jit(lambda p: response_from_params(p, pb))
     return cache[key]
@@ -713,7 +725,7 @@ def evaluate_candidate(setup: Setup, u, *, with_report: bool = True) -> dict:
                                     resolutions=setup.opts.report_resolutions,
                                     corrections=setup.opts.report_corrections,
                                     period_scales=setup.period_scales,
-                                    forward_cache=_ReportCache(setup))
+                                    forward_cache=_ReportCache(setup), environment=setup.opts.environment)
     rules_ok = not violations
     goals_ok = all(v["pass"] for v in goals.values())
     flagged = bool(report and report["flagged"])
@@ -753,7 +765,8 @@ def precompile(setup: Setup, keys, threads: int = 2) -> None:
     params = concrete(setup.start_design.params)
 
     def build(key):
-        pb = prepare(setup.start_design, setup.wavelengths, model=ModelOptions(*key),
+        pb = prepare(setup.start_design, setup.wavelengths,
+                     model=ModelOptions(*key, environment=setup.opts.environment),
                      period_scales=setup.period_scales)
         return key, jax.jit(lambda p: response_from_params(p, pb)).lower(params).compile()
 

@@ -244,7 +244,8 @@ def make_evaluator(design: Design, spec: Spec, fab: FabDeck, model: ModelOptions
            "model": dataclasses.asdict(model)}
     fp = hashlib.sha256(json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()[:16]
     setup = evaluation_setup(spec, fab, design, ((model.dipoles_per_rod, model.correction),),
-                             lambda wl: (prepare(design, wl, model=model),), fp)
+                             lambda wl: (prepare(design, wl, model=model),), fp,
+                             environment=model.environment)
     problem = setup.problems[0]
     params = jax.tree_util.tree_map(lambda x: jnp.asarray(np.asarray(x, float)), design.params)
     qfn = _quantities_fn(setup)
