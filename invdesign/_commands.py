@@ -431,7 +431,8 @@ def run_verification(design, spec, fab, model, vopts, out_dir, *, meta: dict, pl
 
     result = run_verify(design, spec, fab, model, vopts)
     paths = write_outputs(result, spec, out_dir, meta=meta, plot=plot)
-    print("\n".join(["", *table_lines(result), "", *solver_lines(result)]))
+    print("\n".join(["", f"verified values: {result['verified_basis']}", *table_lines(result), "",
+                     *solver_lines(result)]))
     if result.get("resonance"):
         print("\n".join(["", "resonance (largest zero-order extinction):", *resonance_lines(result)]))
     return paths

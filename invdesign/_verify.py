@@ -16,6 +16,13 @@ The error bar of each goal is the larger of |goal(extrapolated) − goal(finest 
 more spacings, |goal(quadratic) − goal(linear through the two finest)| — the size of the correction
 itself, a deliberately cautious bar (common practice, no source).
 
+Outside the asymptotic range. On grids too coarse for the element (a few dipole layers across a thin
+metal film) the solutions still move fast with d and a polynomial through them can leave the physical
+range (a power fraction above 1). When the extrapolated spectra violate 0 ≤ T, R, |t_ij|² ≤ 1, A ≥ 0 or
+R + T + A = 1 by more than ``PHYSICAL_SLACK``, the finest grid is taken as the verified value instead and
+its error bar is the first-order (Richardson) estimate of its own error, |finest − the straight line
+through the two finest grids at d = 0|; the output says so and asks for finer spacings.
+
 Verdict per goal: "met" if the goal holds over the whole interval value ± error bar, "not met" if it
 fails over the whole interval, "within error bar" otherwise.
 
@@ -40,6 +47,7 @@ from ._optimize import evaluation_setup, exact_goals
 from ._simulate import Incidence, ModelOptions, Response, simulate
 
 VERDICTS = ("met", "not met", "within error bar")
+EXTRAPOLATED = "extrapolated (d → 0)"
 
 
 @dataclasses.dataclass(frozen=True)
@@ -184,15 +192,51 @@ def _solver_response(design, wl, spacing, opts, incidence):
     return jax.tree_util.tree_map(np.asarray, resp), info._asdict()
 
 
-def _goal_row(setup, goals_by_model: dict, fast_key: str, spacings, solver_keys, extrap: dict,
-              lin2: dict | None):
+#: largest violation of 0 <= T, R, |t_ij|^2 <= 1, A >= 0 and R + T + A = 1 an extrapolated response may show
+#: before it is judged outside the asymptotic range (common practice, no source)
+PHYSICAL_SLACK = 0.01
+
+
+def physical_violation(resp) -> float:
+    """How far a response leaves the physical range: max over wavelengths of the excess of T, R, the
+    zero-order powers |t_ij|², |r_ij|² over [0, 1], of −A, and of |1 − R − T − A|. 0 for a real solve."""
+    t2, r2 = np.abs(np.asarray(resp.t)) ** 2, np.abs(np.asarray(resp.r)) ** 2
+    T, R, A = (np.asarray(x) for x in (resp.transmittance, resp.reflectance, resp.absorbance))
+    parts = [T - 1, -T, R - 1, -R, -A, np.abs(1 - R - T - A), t2 - 1, r2 - 1]
+    return float(max(np.max(p) for p in parts))
+
+
+def best_estimate(spacings, responses) -> dict:
+    """The verified response from solves at several spacings, and what its error bar is built from.
+
+    Extrapolation to d → 0 (``extrapolated_response``) is used when its spectra stay physical
+    (``physical_violation`` ≤ ``PHYSICAL_SLACK``); then the error bar compares it with the finest grid and,
+    with three or more spacings, with the straight line through the two finest. Otherwise the grids are
+    not yet in the asymptotic range: the finest grid is the estimate and its error bar is the first-order
+    (Richardson) estimate of its own error, |finest − line through the two finest at d = 0|.
+
+    Returns dict: ``response``, ``extrapolated`` (always the raw extrapolation), ``companions`` (responses
+    whose goal differences from the estimate make the error bar), ``physical`` (bool), ``violation``.
+    """
+    order = np.argsort(spacings)
+    finest = responses[int(order[0])]
+    extrap = extrapolated_response(spacings, responses)
+    lin2 = extrapolated_response([spacings[i] for i in order[:2]], [responses[i] for i in order[:2]])
+    violation = physical_violation(extrap)
+    if violation <= PHYSICAL_SLACK:
+        companions = [finest] + ([lin2] if len(spacings) >= 3 else [])
+        return {"response": extrap, "extrapolated": extrap, "companions": companions, "physical": True,
+                "violation": violation}
+    return {"response": finest, "extrapolated": extrap, "companions": [lin2], "physical": False,
+            "violation": violation}
+
+
+def _goal_rows(setup, goals_by_model: dict, fast_key: str, solver_keys, verified: dict,
+               companions: list) -> dict:
     rows = {}
-    finest = solver_keys[int(np.argmin(spacings))]
     for label, goal in zip(setup.labels, setup.spec.goals, strict=True):
-        v0 = extrap[label][0]
-        err = abs(v0 - goals_by_model[finest][label][0])
-        if lin2 is not None:
-            err = max(err, abs(v0 - lin2[label][0]))
+        v0 = verified[label][0]
+        err = max(abs(v0 - c[label][0]) for c in companions)
         if not math.isfinite(err):
             err = math.inf
         fast = goals_by_model[fast_key][label][0]
@@ -200,7 +244,7 @@ def _goal_row(setup, goals_by_model: dict, fast_key: str, spacings, solver_keys,
             "metric": goal.metric, "sense": goal.sense, "target": goal.target, "unit": goal.unit,
             "fast": fast, "fast_met": goal.met(fast),
             "solver": {k: goals_by_model[k][label][0] for k in solver_keys},
-            "extrapolated": v0, "error_bar": err,
+            "verified": v0, "error_bar": err,
             "fast_minus_verified": fast - v0,
             "verdict": verdict(goal, v0, err),
         }
@@ -270,23 +314,27 @@ def run_verify(design, spec, fab, model: ModelOptions, opts: VerifyOptions, *,
         log(f"verify: grid d={float(info['spacing_nm']):.3g} nm: {info['n_dipoles']} dipoles, "
             f"{info['seconds']:.1f} s")
     used = [float(i.get("spacing_nm", i["requested_spacing_nm"])) for i in solver_info]
-    extrap_resp = extrapolated_response(used, solver_resps)
-    responses["extrapolated (d → 0)"] = extrap_resp
-    extrap = exact_goals(extrap_resp, setup)
-    lin2 = None
-    if len(used) >= 3:
-        order = np.argsort(used)[:2]
-        lin_resp = extrapolated_response([used[i] for i in order], [solver_resps[i] for i in order])
-        lin2 = exact_goals(lin_resp, setup)
-    rows = _goal_row(setup, goals, fast_key, used, solver_keys, extrap, lin2)
+    est = best_estimate(used, solver_resps)
+    responses[EXTRAPOLATED] = est["extrapolated"]
+    verified = exact_goals(est["response"], setup)
+    rows = _goal_rows(setup, goals, fast_key, solver_keys, verified,
+                      [exact_goals(c, setup) for c in est["companions"]])
+    method = "linear in d" if len(used) == 2 else "quadratic in d (least squares)"
+    if est["physical"]:
+        basis = f"extrapolated to d → 0 ({method})"
+    else:
+        basis = (f"finest grid (d = {min(used):.3g} nm): the extrapolation ({method}) leaves the physical "
+                 f"range by {est['violation']:.2g} (e.g. a power fraction above 1), so these grids are not "
+                 f"yet in the asymptotic range; error bar = first-order estimate of the finest grid's "
+                 f"error. Refine verification.spacings_nm for a firmer verdict")
     result = {"design_name": design.name, "spec": spec.name, "fab_deck": fab.name if fab else None,
               "fast_model": dataclasses.asdict(model), "spacings_nm": used,
-              "extrapolation": "linear in d" if len(used) == 2 else "quadratic in d (least squares)",
+              "extrapolation": method, "verified_basis": basis, "extrapolation_physical": est["physical"],
               "goals": rows, "solver": solver_info, "wavelengths_nm": wl.tolist(),
               "operating_nm": spec.operating_nm, "responses": responses,
               "balance_error_max": {k: float(np.max(np.abs(1 - r.transmittance - r.reflectance
                                                             - r.absorbance)))
-                                    for k, r in responses.items() if k != "extrapolated (d → 0)"}}
+                                    for k, r in responses.items() if k != EXTRAPOLATED}}
     if opts.scan is not None:
         result["resonance"] = _resonance_study(design, model, opts, incidence, used, log)
     result["seconds"] = round(time.perf_counter() - t0, 2)
@@ -297,10 +345,13 @@ def _resonance_study(design, model, opts, incidence, used, log) -> dict:
     a, b, n = opts.scan
     wl = np.linspace(float(a), float(b), int(n))
     fast = simulate(design, wl, model=model, incidence=incidence)
-    resps = [_solver_response(design, wl, d, opts, incidence)[0] for d in sorted(used, reverse=True)]
-    ext = extrapolated_response(sorted(used, reverse=True), resps)
+    spacings = sorted(used, reverse=True)
+    resps = [_solver_response(design, wl, d, opts, incidence)[0] for d in spacings]
+    est = best_estimate(spacings, resps)
+    ext = est["response"]
     out = {"scan_nm": wl.tolist(), "fast_extinction": extinction(fast).tolist(),
-           "verified_extinction": extinction(ext).tolist(), "per_input": {}}
+           "verified_extinction": extinction(ext).tolist(), "extrapolation_physical": est["physical"],
+           "per_input": {}}
     for j, pol in enumerate(("x", "y")):
         lf, edge_f = resonance_nm(wl, extinction(fast)[:, j])
         lv, edge_v = resonance_nm(wl, extinction(ext)[:, j])

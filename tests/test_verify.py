@@ -103,3 +103,34 @@ def test_config_block_defaults_and_errors():
         parse_verify_options({"spacing": [5]}, 1310.0)
     with pytest.raises(InvdesignError, match="spacings_nm must be a list"):
         parse_verify_options({"spacings_nm": 5}, 1310.0)
+
+
+def _fake_response(T, t_xx):
+    """A minimal Response with (n_wl,) transmittance T for both inputs, no reflection, A = 1 − T."""
+    from invdesign._simulate import Response
+
+    n = len(T)
+    t = np.zeros((n, 2, 2), complex)
+    t[:, 0, 0] = t[:, 1, 1] = t_xx
+    T2 = np.stack([T, T], axis=1)
+    return Response(wavelengths_nm=np.linspace(1000, 1100, n), t=t, r=np.zeros((n, 2, 2), complex),
+                    transmittance=T2, reflectance=np.zeros((n, 2)), absorbance=1 - T2, orders=None,
+                    chain_residual=np.zeros(n))
+
+
+def test_physical_extrapolation_is_used_and_unphysical_one_falls_back_to_the_finest_grid():
+    from invdesign._verify import PHYSICAL_SLACK, best_estimate, physical_violation
+
+    d = [10.0, 7.5, 5.0]
+    # a gentle trend towards T = 0.8 at d = 0: the extrapolation stays physical and is used
+    gentle = [_fake_response(np.full(3, 0.8 - 0.004 * x), np.full(3, np.sqrt(0.8 - 0.004 * x))) for x in d]
+    est = best_estimate(d, gentle)
+    assert est["physical"] and physical_violation(est["response"]) <= PHYSICAL_SLACK
+    np.testing.assert_allclose(est["response"].transmittance, 0.8, atol=1e-12)
+    # a steep trend that carries T above 1 at d = 0: the finest grid is the estimate
+    steep = [_fake_response(np.full(3, 1.05 - 0.03 * x), np.full(3, np.sqrt(1.05 - 0.03 * x))) for x in d]
+    est = best_estimate(d, steep)
+    assert not est["physical"] and physical_violation(est["extrapolated"]) > PHYSICAL_SLACK
+    np.testing.assert_allclose(est["response"].transmittance, 1.05 - 0.03 * 5.0, atol=1e-12)
+    # its error companion is the straight line through the two finest grids, at d = 0
+    np.testing.assert_allclose(est["companions"][0].transmittance, 1.05, atol=1e-12)
