@@ -19,7 +19,7 @@ incident amplitude at z = 0; nm at this interface, SI inside. What differs is th
 equivalent-ellipsoid or chain approximations, only the discretisation error of the DDA, which falls with
 d and is small for |m| k d ≲ 1 (``DdaInfo.mkd_max``) and a fine enough staircase of the shape.
 
-Absorption: A = −(k/A_cell) Σ_i Im(Λ_i) |p̃_i|² with Λ = α⁻¹ + i k³/(6π), the dipoles' work minus their
+Absorption: A = −(k/(A_cell cos θ)) Σ_i Im(Λ_i) |p̃_i|² with Λ = α⁻¹ + i k³/(6π), the dipoles' work minus their
 own radiation — consistent with the LDR, whose radiative part is exactly −i k³/(6π), so R + T + A = 1
 holds to the solver tolerance. Block-Jacobi preconditioning: each dipole's own 3 × 3 block
 α_i⁻¹ I − k² G_L,self.
@@ -40,9 +40,16 @@ import jax.numpy as jnp
 import numpy as np
 
 from . import _jaxsetup  # noqa: F401
-from ._dda_krylov import METHODS, solve
 from ._dda_grid import DipoleGrid, discretise
-from ._dda_operator import displacement_table, fft_shape, free_kernel, lattice_image_mask, lattice_kernel, make_matvec
+from ._dda_krylov import METHODS, solve
+from ._dda_operator import (
+    displacement_table,
+    fft_shape,
+    free_kernel,
+    lattice_image_mask,
+    lattice_kernel,
+    make_matvec,
+)
 from ._dda_polarizability import POLARIZABILITIES, dipole_lambda, ldr_s
 from ._errors import InvdesignError
 from ._farfield import order_amplitudes
@@ -53,6 +60,8 @@ from ._solve import plane_wave_at
 from ._units import NM, k0_per_m
 
 VOLUMES = ("grid", "exact")
+#: the default incidence: normal, from the superstrate
+NORMAL_INCIDENCE = Incidence()
 
 
 class DdaConvergenceError(InvdesignError):
@@ -108,7 +117,8 @@ class DdaInfo(NamedTuple):
       grid_shape: (nx, ny, nz) grid points; fft_shape: (M1, M2, M3) circulant size.
       counts: (n_el,) dipoles per element. volume_ratio: (n_el,) N_e d³ / V_e.
       mkd_max: (n_wl,) largest |m| k d over the materials (accuracy indicator, want ≲ 1).
-      iterations: (n_wl, 2) products with the DDA matrix per solve. residual: (n_wl, 2) relative true residuals.
+      iterations: (n_wl, 2) products with the DDA matrix per solve.
+      residual: (n_wl, 2) relative true residuals ‖b − A p̃‖/‖b‖.
       converged: bool, every solve reached ``tol``.
       seconds: (n_wl,) wall time per wavelength (the first includes compilation).
     """
@@ -147,8 +157,8 @@ def _dipole_volumes(grid: DipoleGrid, elements, volume: str) -> np.ndarray:
     return per_element[grid.owner]
 
 
-def dda_setup(design, wavelengths_nm, spacing_nm, *, incidence=Incidence(),
-              options=DdaOptions()) -> DdaSetup:
+def dda_setup(design, wavelengths_nm, spacing_nm, *, incidence: Incidence = NORMAL_INCIDENCE,
+              options: DdaOptions = DdaOptions()) -> DdaSetup:
     """Check the inputs and discretise the cell (raises ``InvdesignError`` before any heavy work)."""
     problem = prepare(design, wavelengths_nm, incidence=incidence)
     elements = design.elements
@@ -187,7 +197,7 @@ def _method(options, symmetric: bool) -> str:
     return options.method
 
 
-def _solve_polarisations(matvec_of, alpha_inv, rhs, g_self, k, options, method):
+def _solve_polarisations(kernel_hat, grid, alpha_inv, rhs, g_self, k, options, method):
     """Krylov solve for each input polarisation; alpha_inv (n_in, n_d), rhs (n_in, n_d, 3) -> p̃
     (n_in, n_d, 3) and ``SolveStats`` with (n_in,) fields."""
     n_d = rhs.shape[1]
@@ -195,7 +205,7 @@ def _solve_polarisations(matvec_of, alpha_inv, rhs, g_self, k, options, method):
     inv_blocks = jnp.linalg.inv(blocks)
 
     def one(a_inv, b, dinv):
-        mv = matvec_of(a_inv)
+        mv = make_matvec(kernel_hat, a_inv, grid.shape, grid.occupied)
 
         def flat_mv(v):
             return mv(v.reshape(n_d, 3)).reshape(-1)
@@ -229,7 +239,7 @@ def wavelength_function(setup: DdaSetup):
     ``SolveStats`` with (2,) fields.
     """
     problem, grid = setup.problem, setup.grid
-    shape, occupied = grid.shape, grid.occupied
+    shape = grid.shape
     d_m = grid.spacing_nm * NM
     positions = jnp.asarray(grid.positions_nm() * NM)
     khat, pols, p_r, cos_in = _incident(problem)
@@ -248,8 +258,7 @@ def wavelength_function(setup: DdaSetup):
         g_self = lattice_dyadic(jnp.zeros(3), jnp.asarray(True), k, kpar, lattice, problem.plan)
         pols_c = jnp.asarray(pols).astype(complex)
         rhs = plane_wave_at(positions, kvec, pols_c)
-        p, stats = _solve_polarisations(lambda a: make_matvec(kernel_hat, a, shape, occupied),
-                                        alpha_inv, rhs, g_self, k, setup.options, method)
+        p, stats = _solve_polarisations(kernel_hat, grid, alpha_inv, rhs, g_self, k, setup.options, method)
         trans, refl, kz, prop = order_amplitudes(p, positions, k, kpar, lattice, orders)
         kz_in = k * cos_in
         t_pow = jnp.sum(jnp.abs(trans) ** 2, axis=-1) * kz[None] / kz_in
@@ -257,7 +266,9 @@ def wavelength_function(setup: DdaSetup):
         r_pow = jnp.sum(jnp.abs(refl) ** 2, axis=-1) * kz[None] / kz_in
         t0 = jnp.einsum("oa,na->on", jnp.asarray(pols), trans[:, 0] + pols_c)
         r0 = jnp.einsum("oa,na->on", jnp.stack([jnp.asarray(p_r), jnp.asarray(pols[1])]), refl[:, 0])
-        absorb = -(k / lattice.area()) * jnp.sum(jnp.imag(lam)[:, :, None] * jnp.abs(p) ** 2, axis=(1, 2))
+        # the dipoles' work over the incident flux through one cell, A cos θ
+        absorb = -(k / (lattice.area() * cos_in)) * jnp.sum(jnp.imag(lam)[:, :, None] * jnp.abs(p) ** 2,
+                                                           axis=(1, 2))
         out = (t0, r0, t_pow, r_pow, absorb, prop, trans.transpose(1, 2, 0), refl.transpose(1, 2, 0))
         return out, stats
 
@@ -275,13 +286,14 @@ def _check(stats_list, wl, strict, tol):
     for lam, st in zip(wl, stats_list, strict=True):
         if strict and not bool(np.all(st.converged)):
             raise DdaConvergenceError(
-                f"the iterative solve stopped at relative residual {float(np.max(st.residual)):.2e} (tolerance {tol:g}) "
+                f"the iterative solve stopped at relative residual {float(np.max(st.residual)):.2e} "
+                f"(tolerance {tol:g}) "
                 f"after {int(np.max(st.iterations))} iterations at {lam:g} nm; raise max_iterations, "
                 "loosen tol, or pass strict=False to get the flagged result")
 
 
-def dda_response(design, wavelengths_nm, spacing_nm, *, incidence=Incidence(), options=DdaOptions(),
-                 strict=True):
+def dda_response(design, wavelengths_nm, spacing_nm, *, incidence: Incidence = NORMAL_INCIDENCE,
+                 options: DdaOptions = DdaOptions(), strict: bool = True):
     """Spectra of a periodic cell by the volume discrete dipole approximation.
 
     Args:
@@ -335,7 +347,7 @@ class DdaCrossSections(NamedTuple):
 
 
 def dda_cross_sections(element, eps, wavelengths_nm, medium_index, spacing_nm, *,
-                       options=DdaOptions()):
+                       options: DdaOptions = DdaOptions()):
     """Extinction, absorption and scattering of one element alone in a homogeneous medium (free space).
 
     Args:
@@ -367,8 +379,8 @@ def dda_cross_sections(element, eps, wavelengths_nm, medium_index, spacing_nm, *
         alpha_inv = lam - 1j * k**3 / (6 * jnp.pi)
         kernel_hat = free_kernel(grid.shape, d_m, k, chunk=options.chunk)
         rhs = plane_wave_at(positions, k * jnp.asarray(khat), jnp.asarray(pols).astype(complex))
-        p, stats = _solve_polarisations(lambda a: make_matvec(kernel_hat, a, grid.shape, grid.occupied),
-                                        alpha_inv, rhs, jnp.zeros((3, 3)), k, options, method)
+        p, stats = _solve_polarisations(kernel_hat, grid, alpha_inv, rhs, jnp.zeros((3, 3)), k, options,
+                                        method)
         ext = k * jnp.imag(jnp.sum(jnp.conj(rhs) * p, axis=(1, 2)))
         absorbed = -k * jnp.sum(jnp.imag(lam)[:, :, None] * jnp.abs(p) ** 2, axis=(1, 2))
         return ext[0], absorbed[0], stats

@@ -88,7 +88,8 @@ def _cycle(matvec, precond, b, x, tol_abs, restart):
 
     steps, basis, hess, _, _, g = jax.lax.while_loop(cond, body, (0, basis, hess, cs, sn, g))
     used = jnp.arange(restart) < steps
-    upper = jnp.where(used[:, None] & used[None, :], hess[:restart], 0.0) + jnp.diag(jnp.where(used, 0.0, 1.0))
+    upper = jnp.where(used[:, None] & used[None, :], hess[:restart], 0.0)
+    upper = upper + jnp.diag(jnp.where(used, 0.0, 1.0))  # unit diagonal on the unused steps: y = 0 there
     y = jax.scipy.linalg.solve_triangular(upper, jnp.where(used, g[:restart], 0.0), lower=False)
     return x + precond(basis[:restart].T @ y), steps
 

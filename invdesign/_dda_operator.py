@@ -75,7 +75,6 @@ def _tabulate(fn, rvec, chunk):
     pad = n_chunks * chunk - n
     safe = np.concatenate([flat, np.tile([[1.0, 0.0, 0.0]], (pad, 1))]) if pad else flat
     is_origin = np.all(safe == 0.0, axis=1)
-    safe = np.where(is_origin[:, None], 0.0, safe)
     ia, ib = np.array(COMPONENTS).T
 
     def block(args):
@@ -142,7 +141,8 @@ def make_matvec(kernel_hat, alpha_inv, shape, occupied):
     occ = jnp.asarray(occupied)
 
     def matvec(p):
-        grid = jnp.zeros((size, 3), dtype=complex).at[occ].set(p, unique_indices=True).reshape(tuple(shape) + (3,))
+        grid = jnp.zeros((size, 3), dtype=complex).at[occ].set(p, unique_indices=True)
+        grid = grid.reshape(tuple(shape) + (3,))
         field = convolve(kernel_hat, grid).reshape(size, 3)[occ]
         return alpha_inv[:, None] * p + field
 

@@ -14,8 +14,9 @@ and the lattice-dispersion-relation polarizability (B. T. Draine and J. Goodman,
 
 â the propagation and ê the polarisation direction of the incident wave (S = 0 for normal incidence
 with x or y polarisation). The constants are typed from memory of the paper, not re-derived here (the
-sphere tests against Mie theory in ``tests/test_dda.py`` are the practical check). The term −(2/3) i (kd)³/(4π d³) =
-−i k³/(6π) is exactly the project's radiative reaction, so these functions return the non-radiative part
+sphere tests against Mie theory in ``tests/test_dda.py`` are the practical check). The term
+−(2/3) i (kd)³/(4π d³) = −i k³/(6π) is exactly the project's radiative reaction, so these functions
+return the non-radiative part
 
     Λ = 1/α + i k³/(6π)   (1/m³),
 
