@@ -86,7 +86,7 @@ def _tabulate(fn, rvec, chunk):
     return out.reshape(-1, 6)[:n].T.reshape((6,) + rvec.shape[:-1])
 
 
-def lattice_kernel(shape, spacing_m, k, kpar, lattice, plan, exclude, *, chunk=2048):
+def lattice_kernel(shape, spacing_m, k, kpar, lattice, plan, exclude, *, chunk=2048, even=False):
     """FFT of the periodic kernel −k² G_L on the circulant displacement table.
 
     Args:
@@ -96,14 +96,23 @@ def lattice_kernel(shape, spacing_m, k, kpar, lattice, plan, exclude, *, chunk=2
       exclude: (M1, M2, M3) static bool, displacements to zero (``lattice_image_mask`` of the nominal
         lattice, plus nothing else).
       chunk: displacements per tabulation block (static).
+      even: static; True promises k∥ = 0, where G_L(−r) = G_L(r) (each term G(r − R_n) is even and the
+        lattice is symmetric under R → −R), so only displacements with z ≥ 0 are tabulated (about half).
 
     Returns:
       (6, M1, M2, M3) complex128 FFT of K, 1/m³.
     """
     rvec, valid = displacement_table(shape, spacing_m)
     keep = valid & ~exclude
-    safe = np.where(keep[..., None], rvec, np.array([1.0, 0.0, 0.0]) * spacing_m)
+    nz = shape[2]
+    half = slice(0, nz) if even else slice(None)
+    safe = np.where(keep[..., None], rvec, np.array([1.0, 0.0, 0.0]) * spacing_m)[:, :, half]
     g = _tabulate(lambda r, o: lattice_dyadic(r, o, k, kpar, lattice, plan), safe, chunk)
+    if even:  # K at index (i, j, M3 − l) is K at (−i, −j, l) mod M, for l = 1 .. nz − 1
+        m1, m2, m3 = rvec.shape[:3]
+        mirrored = g[:, (-np.arange(m1)) % m1][:, :, (-np.arange(m2)) % m2][:, :, :, 1:nz][:, :, :, ::-1]
+        gap = jnp.zeros((6, m1, m2, m3 - 2 * nz + 1), dtype=g.dtype)
+        g = jnp.concatenate([g, gap, mirrored], axis=3)
     return jnp.fft.fftn(jnp.where(jnp.asarray(keep), -(k**2) * g, 0.0), axes=(1, 2, 3))
 
 
