@@ -23,13 +23,17 @@ def _fmt(v) -> str:
 def table_lines(result: dict) -> list[str]:
     """The side-by-side table of every goal as Markdown lines (also printed to the terminal)."""
     solver_keys = [k for k in next(iter(result["goals"].values()))["solver"]]
-    head = ["goal", "target", "fast"] + solver_keys + ["verified", "± error bar", "fast − verified",
-                                                        "verdict"]
+    first = next(iter(result["goals"].values()))
+    sub = "fast_interface" in first
+    head = ["goal", "target", "fast"] + (["fast, rigorous substrate"] if sub else []) + solver_keys
+    head += ["verified", "± error bar", "fast − verified", "verdict"]
     lines = ["| " + " | ".join(head) + " |", "|" + "---|" * len(head)]
     for label, g in result["goals"].items():
         unit = f" {g['unit']}" if g["unit"] else ""
         cells = [label, f"{g['sense']} {g['target']:g}{unit}",
                  _fmt(g["fast"]) + ("" if g["fast_met"] else " (fails)")]
+        if sub:
+            cells.append(_fmt(g["fast_interface"]))
         cells += [_fmt(g["solver"][k]) for k in solver_keys]
         cells += [_fmt(g["verified"]), _fmt(g["error_bar"]), _fmt(g["fast_minus_verified"]),
                   g["verdict"]]
@@ -97,6 +101,8 @@ def plot_overlay(result: dict, spec, path) -> pathlib.Path:
     solver_keys = [k for k in resp if k.startswith("grid")]
     shades = plt.get_cmap("Blues")(np.linspace(0.45, 0.9, max(len(solver_keys), 1)))
     style = {k: dict(color="k", lw=1.8) for k in resp if k.startswith("fast")}
+    style.update({k: dict(color="tab:green", lw=1.4) for k in resp
+                  if k.startswith("fast") and "interface" in k})
     style.update({k: dict(color=c, lw=1.0) for k, c in zip(solver_keys, shades, strict=True)})
     style[EXTRAPOLATED] = dict(color="tab:red", lw=1.6, ls="--")
     names = {k: k for k in resp}

@@ -45,6 +45,7 @@ def test_verify_run_writes_table_plot_and_a_recomputable_extrapolation(tmp_path)
     for g in doc["goals"].values():
         assert g["verdict"] in VERDICTS
         assert g["error_bar"] >= 0
+        assert "fast_interface" in g  # the rigorous-substrate fast row sits beside the averaged one
     # two spacings: the extrapolated Jones matrix is the straight line through both grids at d = 0
     spectra = {k: np.array(v["t_real"]) + 1j * np.array(v["t_imag"]) for k, v in doc["spectra"].items()}
     coarse, fine = spectra["grid d=15 nm"], spectra["grid d=10 nm"]
@@ -54,7 +55,7 @@ def test_verify_run_writes_table_plot_and_a_recomputable_extrapolation(tmp_path)
     for key, err in doc["balance_error_max"].items():
         assert err < 1e-6, key
     table = (out / "verify.md").read_text()
-    assert "| modulation_depth |" in table and "extrapolated" in table
+    assert "| modulation_depth |" in table and "rigorous substrate" in table and "verified" in table
     assert "laser" in done.stdout.lower() and "laser" in doc["safety"].lower()
 
 
