@@ -402,5 +402,5 @@ def dda_cross_sections(element, eps, wavelengths_nm, medium_index, spacing_nm, *
     info = DdaInfo(int(grid.counts.sum()), grid.spacing_nm, grid.shape, fft_shape(grid.shape), grid.counts,
                    grid.volume_ratio, m * 2 * math.pi * medium_index / (wl * NM) * d_m,
                    np.stack([s.iterations for s in stats]), np.stack([s.residual for s in stats]),
-                   True, np.array(seconds))
+                   bool(all(np.all(s.converged) for s in stats)), np.array(seconds))
     return DdaCrossSections(ext, absorbed, ext - absorbed), info

@@ -296,6 +296,7 @@ def test_sphere_array_approaches_the_fast_models_mie_sphere_array():
 
 
 # ---------------------------------------------------------------------------- (f) gradients
+@pytest.mark.slow
 def test_gradient_matches_finite_differences():
     # implicit differentiation of the Krylov solve (custom_linear_solve) against central differences in the
     # permittivity and the period, on an 8-dipole cell
