@@ -112,7 +112,7 @@ def parse_verify_options(doc, operating_nm: float) -> VerifyOptions:
     scan_r = r.sub("resonance_scan", {"start_nm": "first wavelength, nm (default 0.6 x operating)",
                                       "stop_nm": "last wavelength, nm (default 1.4 x operating)",
                                       "count": "number of wavelengths (0: no scan)"}, {})
-    count = scan_r.number("count", 15, integer=True, minimum=0)
+    count = scan_r.number("count", 9, integer=True, minimum=0)
     scan = None
     if count:
         scan = (scan_r.number("start_nm", 0.6 * operating_nm, positive=True),

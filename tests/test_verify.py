@@ -97,7 +97,7 @@ def test_bad_options_are_refused(kwargs, match):
 def test_config_block_defaults_and_errors():
     opts = parse_verify_options({}, 1310.0)
     assert opts.spacings_nm == (10.0, 7.5, 5.0)
-    assert opts.scan == pytest.approx((0.6 * 1310.0, 1.4 * 1310.0, 15))
+    assert opts.scan == pytest.approx((0.6 * 1310.0, 1.4 * 1310.0, 9))
     assert parse_verify_options({"resonance_scan": {"count": 0}}, 1310.0).scan is None
     with pytest.raises(InvdesignError, match="unknown key 'spacing'"):
         parse_verify_options({"spacing": [5]}, 1310.0)
