@@ -41,10 +41,12 @@ from ._farfield import order_amplitudes
 from ._geometry import pair_gaps
 from ._interface import (
     DEFAULT_TOLERANCE,
+    far_nodes,
+    far_sums,
     incident_with_reflection,
+    interface_matrix,
     make_interface_plan,
     order_fields,
-    reflected_coupling,
 )
 from ._lattice import Lattice, make_ewald_plan
 from ._materials.size_damping import (
@@ -370,22 +372,31 @@ def response_from_params(params, problem: Problem) -> Response:
     iplan = problem.interface
     fallback = jnp.array([math.cos(ph), math.sin(ph)])
 
-    def system(k1, lam1, kpar):
-        mat = interaction_matrix(positions, lam1, axes, k1, kpar, lattice, problem.plan)
+    far = None
+    if iplan is not None:
+        # far orders of the interface's order sum: at a few k0 nodes, interpolated to every wavelength
+        nodes, weights = far_nodes(problem.wavelengths_nm)
+        kpar_dir = problem.medium_index * khat_in[:2]
+        at_nodes = far_sums(positions, nodes, kpar_dir, lattice, iplan, fallback)
+        far = jnp.einsum("wc,cij->wij", weights, at_nodes)
+
+    def system(k1, lam1, kpar, far1):
+        if iplan is None:
+            mat = interaction_matrix(positions, lam1, axes, k1, kpar, lattice, problem.plan)
+        else:
+            mat = interface_matrix(positions, lam1, axes, k1 / iplan.n1, kpar, lattice, problem.plan, iplan,
+                                   fallback, far=far1)
         if pair_i.size:
             corr = intra_chain_correction(positions, axes, pair_i, pair_j, k1)
             blocks = jnp.zeros((n_d, n_d, 3, 3)).at[pair_i, pair_j].set(corr).at[pair_j, pair_i].set(corr)
             mat = mat + blocks.transpose(0, 2, 1, 3).reshape(3 * n_d, 3 * n_d)
-        if iplan is not None:
-            mat = mat - reflected_coupling(positions, k1 / iplan.n1, kpar, lattice, problem.plan, iplan,
-                                           fallback)
         return mat
 
     def one(args):
-        k1, lam1 = args
+        k1, lam1, far1 = args
         kvec = k1 * khat_in
         kpar = kvec[:2]
-        mat = system(k1, lam1, kpar)
+        mat = system(k1, lam1, kpar, far1)
         if iplan is not None:
             return _interface_outputs(mat, positions, lam1, axes, k1, kpar, lattice, orders, iplan, pols,
                                       fallback, math.cos(th), area)
@@ -406,7 +417,7 @@ def response_from_params(params, problem: Problem) -> Response:
         return (t0, r0, t_pow.T, r_pow.T, absorb, prop,
                 trans.transpose(1, 2, 0), refl.transpose(1, 2, 0))
 
-    t0, r0, t_pow, r_pow, absorb, prop, t_amp, r_amp = jax.lax.map(one, (k, lam))
+    t0, r0, t_pow, r_pow, absorb, prop, t_amp, r_amp = jax.lax.map(one, (k, lam, far))
     return Response(
         wavelengths_nm=wl, t=t0, r=r0,
         transmittance=jnp.sum(t_pow, axis=1), reflectance=jnp.sum(r_pow, axis=1), absorbance=absorb,

@@ -173,6 +173,7 @@ def test_truncation_meets_its_tolerance_when_doubled(height_nm):
     assert np.max(np.abs(g1 - g2)) / image_self < ip.tolerance
 
 
+@pytest.mark.slow  # > 20 s on the shared 2-core machine (mostly compile)
 def test_spectra_converge_in_the_truncation():
     # the spectral change is the matrix change amplified by the resonance (measured ≈ 13× at 1e-6 for
     # this pair near its resonance); it must fall with the tolerance, about proportionally
@@ -203,6 +204,7 @@ def test_self_field_tends_to_the_quasi_static_image():
     assert errors[1] < 0.5 * errors[0]  # the limit is approached as h shrinks
 
 
+@pytest.mark.slow  # > 20 s on the shared 2-core machine (mostly compile)
 def test_gradient_through_the_interface_model_matches_finite_differences():
     d = cell(PAIR)
     fn, params = invdesign.forward_function(d, WL[1:2], model=ModelOptions(environment="interface"))
@@ -230,3 +232,23 @@ def test_bad_environment_is_refused_naming_the_key():
         ModelOptions(environment="substrate")
     with pytest.raises(invdesign.InvdesignError, match="model.interface_tolerance"):
         ModelOptions(environment="interface", interface_tolerance=2.0)
+
+
+def test_far_orders_interpolated_across_the_band_match_the_direct_sum():
+    # 21 wavelengths 700–1300 nm: the far orders are summed at 6 Chebyshev nodes and interpolated
+    from invdesign._interface import far_nodes, far_sums, remainder_sum
+
+    wl = np.linspace(700.0, 1300.0, 21)
+    pos, _, lat, _, ip = _setup(420.0, [10.0, 10.0], wl_nm=700.0, n1=1.0, n2=1.45, xy=[[0, 0], [120, 60]])
+    nodes, weights = far_nodes(wl)
+    assert len(nodes) == 6
+    fb = jnp.array([1.0, 0.0])
+    at_nodes = np.asarray(far_sums(pos, nodes, jnp.zeros(2), lat, ip, fb))
+    far = ip.reciprocal[~ip.near]
+    beta = (1.45**2 - 1) / (1.45**2 + 1)
+    image_self = beta / (16 * math.pi * (10e-9) ** 3)
+    for i in (0, 5, 13, 20):
+        k0 = 2 * math.pi / (wl[i] * 1e-9)
+        exact = np.asarray(remainder_sum(pos, k0, jnp.zeros(2), lat, far, ip, fb))
+        interp = np.einsum("c,cij->ij", weights[i], at_nodes)
+        assert np.max(np.abs(interp - exact)) / image_self < 1e-8  # far below the 1e-6 truncation
