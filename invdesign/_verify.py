@@ -258,6 +258,25 @@ def _goal_rows(setup, goals_by_model: dict, fast_key: str, solver_keys, verified
     return rows
 
 
+def substrate_chain_length(design, model: ModelOptions) -> int:
+    """Dipoles per rod for the rigorous-substrate row: the smallest odd N with L/N ≤ thickness for the
+    longest rod (capped at ``AUTO_MAX_DIPOLES``), and never fewer than the checked model uses.
+
+    Why: a point dipole at mid-height sees its image as if all its charge sat at its centre, which
+    overstates the substrate coupling of a rod much longer than its thickness; chains with spacing no
+    coarser than the thickness avoid that (see ``invdesign._interface``).
+    """
+    from ._simulate import AUTO_MAX_DIPOLES
+
+    n = 1
+    for e in design.elements:
+        if e.shape == "rod":
+            n = max(n, math.ceil(float(e.length) / float(e.thickness) - 1e-9))
+    n = n + 1 if n % 2 == 0 else n
+    floor = model.dipoles_per_rod if isinstance(model.dipoles_per_rod, int) else 1
+    return int(max(min(n, AUTO_MAX_DIPOLES), floor))
+
+
 def check_grids(design, opts: VerifyOptions) -> list:
     """Discretise the design at every requested spacing before any solve (cheap, NumPy); refuse spacings
     that round to the same grid or exceed the memory guard. Returns the ``DipoleGrid``s, coarsest first."""
@@ -307,7 +326,8 @@ def run_verify(design, spec, fab, model: ModelOptions, opts: VerifyOptions, *,
     substrate_key = None
     if opts.substrate_row and model.environment == "averaged":
         # the same fast model with the rigorous substrate: how much the averaged medium itself moves the goals
-        sub_model = dataclasses.replace(model, environment="interface")
+        sub_model = dataclasses.replace(model, environment="interface",
+                                        dipoles_per_rod=substrate_chain_length(design, model))
         substrate_key = f"fast ({_model_name(sub_model)})"
         responses[substrate_key] = jax.tree_util.tree_map(
             np.asarray, simulate(design, wl, model=sub_model, incidence=incidence))

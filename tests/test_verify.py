@@ -134,3 +134,18 @@ def test_physical_extrapolation_is_used_and_unphysical_one_falls_back_to_the_fin
     np.testing.assert_allclose(est["response"].transmittance, 1.05 - 0.03 * 5.0, atol=1e-12)
     # its error companion is the straight line through the two finest grids, at d = 0
     np.testing.assert_allclose(est["companions"][0].transmittance, 1.05, atol=1e-12)
+
+
+def test_substrate_row_resolves_rods_to_about_their_thickness():
+    # the rule (smallest odd N with L/N <= thickness, capped at 13, never below the checked model's N)
+    from test_verify_cli import DESIGN
+
+    from invdesign._design import Design
+    from invdesign._simulate import ModelOptions
+    from invdesign._verify import substrate_chain_length
+
+    design = Design.from_json(DESIGN)  # rods 200 and 260 nm long, 30 nm thick: 260/30 = 8.7 -> 9
+    assert substrate_chain_length(design, ModelOptions()) == 9
+    assert substrate_chain_length(design, ModelOptions(dipoles_per_rod=13)) == 13
+    long = {**DESIGN, "elements": [{**DESIGN["elements"][0], "length": 450.0}]}  # 450/30 = 15 -> capped at 13
+    assert substrate_chain_length(Design.from_json(long), ModelOptions()) == 13
