@@ -2,6 +2,7 @@
 
 import dataclasses
 import json
+import math
 import pathlib
 import time
 
@@ -115,6 +116,16 @@ def optimize(cfg) -> None:
           + (f" (several resolutions: deck min gap {fab.min_gap_nm:g} nm < "
              f"{opt.ROBUST_GAP_THRESHOLD_NM:g} nm)"
              if len(opts.resolutions) > 1 else ""))
+    if opts.environment == "interface":
+        need = math.ceil(fab.length_max_nm / min(fab.thickness_nm) - 1e-9)
+        need += 1 - need % 2
+        if max(opts.resolutions) < need:
+            print(f"note: with model.environment=interface a rod needs chains with spacing about its "
+                  f"thickness "
+                  f"(a single dipole overstates its image coupling); this deck allows rods up to "
+                  f"{fab.length_max_nm:g} nm on {min(fab.thickness_nm):g} nm films, i.e. about N = {need}, "
+                  f"but the robust set stops at N = {max(opts.resolutions)}: set "
+                  f"robust.resolutions=[{need}] (slower) or read the results as indicative only")
     fab_robust = None
     if opts.fab_robust is not None:
         fr = opts.fab_robust
