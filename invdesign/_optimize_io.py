@@ -111,6 +111,17 @@ def _model_color(k: int):
     return matplotlib.colormaps["tab10"](k % 10)
 
 
+def finish_depth_axes(ax, spec) -> None:
+    """Depth target, operating wavelength, labels and legend of a modulation-depth-vs-wavelength panel."""
+    depth = spec.depth_target()
+    if depth is not None:
+        ax.axhline(depth, color="0.4", ls=":", lw=0.8, label=f"depth target {depth:g}")
+    ax.axvline(spec.operating_nm, color="0.7", lw=0.8)
+    ax.set(xlabel="vacuum wavelength (nm)", ylabel="peak-to-peak depth M", ylim=(0, None),
+           title=f"modulation depth at rho = {spec.rho:g}")
+    ax.legend(fontsize=7)
+
+
 def plot_spectra(setup, c, path):
     """|T_xx|², |T_xy|² and the modulation depth M against wavelength, at each robust resolution."""
     plt = _plt()
@@ -128,13 +139,7 @@ def plot_spectra(setup, c, path):
     axes[0].set(xlabel="vacuum wavelength (nm)", ylabel="zero-order power",
                 title=f"solid |{spec.matrix}_xx|², dashed |{spec.matrix}_xy|² (dots: optimised samples)")
     axes[0].legend(fontsize=7)
-    depth = spec.depth_target()
-    if depth is not None:
-        axes[1].axhline(depth, color="0.4", ls=":", lw=0.8, label=f"depth target {depth:g}")
-    axes[1].axvline(spec.operating_nm, color="0.7", lw=0.8)
-    axes[1].set(xlabel="vacuum wavelength (nm)", ylabel="peak-to-peak depth M", ylim=(0, None),
-                title=f"modulation depth at rho = {spec.rho:g}")
-    axes[1].legend(fontsize=7)
+    finish_depth_axes(axes[1], spec)
     fig.suptitle(f"{spec.name}: {'feasible' if c['feasible'] else 'NOT feasible'} design")
     return _save(fig, path)
 

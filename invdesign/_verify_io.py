@@ -9,6 +9,7 @@ import numpy as np
 from ._atomic import atomic_savefig
 from ._design import atomic_write_text
 from ._metrics import channel_amplitudes, modulation_depth
+from ._optimize_io import finish_depth_axes
 from ._spectra_io import SAFETY_NOTE
 
 EXTRAPOLATED = "extrapolated (d → 0)"
@@ -118,13 +119,7 @@ def plot_overlay(result: dict, spec, path) -> pathlib.Path:
     axes[0].set(xlabel="vacuum wavelength (nm)", ylabel="zero-order power",
                 title=f"|{spec.matrix}_xx|² (solid/dashed), |{spec.matrix}_xy|² (dotted)")
     axes[0].legend(fontsize=7)
-    depth = spec.depth_target()
-    if depth is not None:
-        axes[1].axhline(depth, color="0.4", ls=":", lw=0.8, label=f"depth target {depth:g}")
-    axes[1].axvline(spec.operating_nm, color="0.7", lw=0.8)
-    axes[1].set(xlabel="vacuum wavelength (nm)", ylabel="peak-to-peak depth M", ylim=(0, None),
-                title=f"modulation depth at rho = {spec.rho:g}")
-    axes[1].legend(fontsize=7)
+    finish_depth_axes(axes[1], spec)
     if n_panels == 3:
         res = result["resonance"]
         scan = np.asarray(res["scan_nm"])

@@ -43,3 +43,14 @@ SMALL_FAB = {"name": "f", "label": "typical values (common practice, no source)"
              "angle_step_deg": 0.5, "period_nm": {"min": 250.0, "max": 900.0}}
 SMALL_CELL = {"family": "lone_tilt", "period_nm": [500.0, 500.0],
               "start": {"length": 200.0, "width": 60.0, "angle_deg": 30.0}}
+
+# two gold rods on glass in a 500 nm square cell: the small design of the command-line tests
+PAIR_DESIGN = {"format": "invdesign.design", "version": 1, "length_unit": "nm",
+               "lattice": {"a1": [500.0, 0.0], "a2": [0.0, 500.0]},
+               "environment": {"superstrate_index": 1.0, "substrate_index": 1.45},
+               "materials": {"gold_rakic1998": {"model": "library", "name": "gold_rakic1998"}},
+               "elements": [{"shape": "rod", "material": "gold_rakic1998", "center": [-120.0, 0.0],
+                             "length": 200.0, "width": 70.0, "thickness": 30.0, "angle_deg": 90.0},
+                            {"shape": "rod", "material": "gold_rakic1998", "center": [120.0, 0.0],
+                             "length": 260.0, "width": 70.0, "thickness": 30.0, "angle_deg": 50.0}],
+               "name": "pair"}

@@ -6,16 +6,10 @@ import pathlib
 import subprocess
 import sys
 
+from helpers import PAIR_DESIGN
+
 ROOT = pathlib.Path(__file__).resolve().parent.parent
-DESIGN = {"format": "invdesign.design", "version": 1, "length_unit": "nm",
-          "lattice": {"a1": [500.0, 0.0], "a2": [0.0, 500.0]},
-          "environment": {"superstrate_index": 1.0, "substrate_index": 1.45},
-          "materials": {"gold_rakic1998": {"model": "library", "name": "gold_rakic1998"}},
-          "elements": [{"shape": "rod", "material": "gold_rakic1998", "center": [-120.0, 0.0],
-                        "length": 200.0, "width": 70.0, "thickness": 30.0, "angle_deg": 90.0},
-                       {"shape": "rod", "material": "gold_rakic1998", "center": [120.0, 0.0],
-                        "length": 260.0, "width": 70.0, "thickness": 30.0, "angle_deg": 50.0}],
-          "name": "pair"}
+DESIGN = PAIR_DESIGN
 SMALL = ["spec=heron_1310", "fab=ebl_fine", "model=fast", "spec.band.count=5", "spec.band.start_nm=1290",
          "spec.band.stop_nm=1330", "spec.goals.4.target=20", "samples=24", "drivers.samples=8", "batch=8"]
 

@@ -7,19 +7,12 @@ import subprocess
 import sys
 
 import numpy as np
+from helpers import PAIR_DESIGN
 
 from invdesign._verify import VERDICTS
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
-DESIGN = {"format": "invdesign.design", "version": 1, "length_unit": "nm",
-          "lattice": {"a1": [500.0, 0.0], "a2": [0.0, 500.0]},
-          "environment": {"superstrate_index": 1.0, "substrate_index": 1.45},
-          "materials": {"gold_rakic1998": {"model": "library", "name": "gold_rakic1998"}},
-          "elements": [{"shape": "rod", "material": "gold_rakic1998", "center": [-120.0, 0.0],
-                        "length": 200.0, "width": 70.0, "thickness": 30.0, "angle_deg": 90.0},
-                       {"shape": "rod", "material": "gold_rakic1998", "center": [120.0, 0.0],
-                        "length": 260.0, "width": 70.0, "thickness": 30.0, "angle_deg": 50.0}],
-          "name": "pair"}
+DESIGN = PAIR_DESIGN
 SMALL = ["spec=heron_1310", "fab=ebl_fine", "model=fast", "spec.band.count=5", "spec.band.start_nm=1290",
          "spec.band.stop_nm=1330", "spec.goals.4.target=20", "verification.spacings_nm=[15,10]",
          "verification.resonance_scan.count=0"]
