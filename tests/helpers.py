@@ -1,5 +1,9 @@
 """Shared test tolerances and small builders. Tolerances live here, one table, with their reason."""
 
+import pathlib
+import subprocess
+import sys
+
 import numpy as np
 
 #: relative tolerances by check kind (float64 throughout)
@@ -54,3 +58,20 @@ PAIR_DESIGN = {"format": "invdesign.design", "version": 1, "length_unit": "nm",
                             {"shape": "rod", "material": "gold_rakic1998", "center": [120.0, 0.0],
                              "length": 260.0, "width": 70.0, "thickness": 30.0, "angle_deg": 50.0}],
                "name": "pair"}
+
+
+ROOT = pathlib.Path(__file__).resolve().parent.parent
+
+
+def run_cli(command: str, *args, timeout=900):
+    """``invdesign COMMAND args...`` in a subprocess from the checkout's root, output captured."""
+    return subprocess.run([sys.executable, "-m", "invdesign.cli", command, *args], cwd=ROOT,
+                          capture_output=True, text=True, timeout=timeout)
+
+
+def assert_refused(command: str, args, message: str):
+    """The command exits with status 2, names ``message`` on stderr and prints no traceback."""
+    done = run_cli(command, *args, timeout=300)
+    assert done.returncode == 2, (done.stdout, done.stderr)
+    assert message in done.stderr, done.stderr
+    assert "Traceback" not in done.stderr

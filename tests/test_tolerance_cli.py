@@ -2,21 +2,16 @@
 with the key named (exit status 2, no traceback) before any compiling."""
 
 import json
-import pathlib
-import subprocess
-import sys
 
-from helpers import PAIR_DESIGN
+from helpers import PAIR_DESIGN, assert_refused, run_cli
 
-ROOT = pathlib.Path(__file__).resolve().parent.parent
 DESIGN = PAIR_DESIGN
 SMALL = ["spec=heron_1310", "fab=ebl_fine", "model=fast", "spec.band.count=5", "spec.band.start_nm=1290",
          "spec.band.stop_nm=1330", "spec.goals.4.target=20", "samples=24", "drivers.samples=8", "batch=8"]
 
 
 def _run(*args, timeout=900):
-    return subprocess.run([sys.executable, "-m", "invdesign.cli", "tolerance", *args], cwd=ROOT,
-                          capture_output=True, text=True, timeout=timeout)
+    return run_cli("tolerance", *args, timeout=timeout)
 
 
 def test_tolerance_run_writes_everything(tmp_path):
@@ -37,10 +32,7 @@ def test_tolerance_run_writes_everything(tmp_path):
 
 
 def _refused(args, message):
-    done = _run(*args, timeout=300)
-    assert done.returncode == 2, (done.stdout, done.stderr)
-    assert message in done.stderr, done.stderr
-    assert "Traceback" not in done.stderr
+    assert_refused("tolerance", args, message)
 
 
 def test_bad_input_is_refused_by_key(tmp_path):

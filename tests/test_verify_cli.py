@@ -2,16 +2,12 @@
 extrapolation recomputable from the saved spectra; bad input refused with the key named before any solve."""
 
 import json
-import pathlib
-import subprocess
-import sys
 
 import numpy as np
-from helpers import PAIR_DESIGN
+from helpers import PAIR_DESIGN, assert_refused, run_cli
 
 from invdesign._verify import VERDICTS
 
-ROOT = pathlib.Path(__file__).resolve().parent.parent
 DESIGN = PAIR_DESIGN
 SMALL = ["spec=heron_1310", "fab=ebl_fine", "model=fast", "spec.band.count=5", "spec.band.start_nm=1290",
          "spec.band.stop_nm=1330", "spec.goals.4.target=20", "verification.spacings_nm=[15,10]",
@@ -19,8 +15,7 @@ SMALL = ["spec=heron_1310", "fab=ebl_fine", "model=fast", "spec.band.count=5", "
 
 
 def _run(*args, timeout=900):
-    return subprocess.run([sys.executable, "-m", "invdesign.cli", "verify", *args], cwd=ROOT,
-                          capture_output=True, text=True, timeout=timeout)
+    return run_cli("verify", *args, timeout=timeout)
 
 
 def test_verify_run_writes_table_plot_and_a_recomputable_extrapolation(tmp_path):
@@ -53,10 +48,7 @@ def test_verify_run_writes_table_plot_and_a_recomputable_extrapolation(tmp_path)
 
 
 def _refused(args, message):
-    done = _run(*args, timeout=300)
-    assert done.returncode == 2, (done.stdout, done.stderr)
-    assert message in done.stderr, done.stderr
-    assert "Traceback" not in done.stderr
+    assert_refused("verify", args, message)
 
 
 def test_bad_input_is_refused_by_key(tmp_path):
