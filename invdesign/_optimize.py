@@ -39,11 +39,13 @@ every smooth rule holds with its margin):
 * m = ``goal_margin`` (normalised units) makes the optimiser aim a little past each target so that the
   grid snap does not undo it; P and its margin are in ``invdesign._penalties``; λ_rules = ``rules_weight``.
 
-Optimisers: optax Adam with a warm-up + cosine learning-rate schedule (default) or optax L-BFGS with its
-zoom line search. All starts run together, ``jax.vmap`` over the start axis; start 0 is the cell config's
-start, the others are drawn from a ``numpy`` generator seeded with ``seed``. The step is one jitted pure
-function of (parameters, optimiser state), so a run is deterministic and resumable. A run stops early at
-the first step where some start has loss exactly 0.
+Optimisers: optax Adam with a warm-up + cosine learning-rate schedule (default) or L-BFGS (optax's
+``scale_by_lbfgs`` direction with a backtracking Armijo line search on the host, ``invdesign._quasi_newton``;
+one L-BFGS step makes one or more batched loss-and-gradient calls). All starts run together, ``jax.vmap``
+over the start axis; start 0 is the cell config's start, the others are drawn from a ``numpy`` generator
+seeded with ``seed``. A step is a deterministic function of (parameters, optimiser state) — one jitted
+pure function for Adam, jitted pieces and host arithmetic for L-BFGS — so a run is deterministic and
+resumable. A run stops early at the first step where some start has loss exactly 0.
 
 After the run, the best point of every start is snapped to the placement grid, checked against the exact
 rules (``check_rules``), re-simulated from scratch at every robust resolution and put through the
@@ -516,8 +518,7 @@ def exact_goals(resp, setup: Setup) -> dict:
 
 # -------------------------------------------------------------------------------------- optimiser
 def make_optimizer(opts: RunOptions):
-    if opts.optimizer == "lbfgs":
-        return optax.lbfgs()
+    """The Adam transformation with its warm-up + cosine schedule (L-BFGS is ``_quasi_newton``)."""
     sched = optax.warmup_cosine_decay_schedule(
         init_value=opts.learning_rate * 0.1, peak_value=opts.learning_rate,
         warmup_steps=max(opts.warmup_steps, 1), decay_steps=max(opts.steps, opts.warmup_steps + 1),
@@ -529,21 +530,27 @@ _COMPILED = {}
 
 
 def compiled_step(setup: Setup):
-    """(init, step) jitted and vmapped over starts; cached per setup fingerprint within the process."""
+    """(init, step) over all starts at once, cached per setup fingerprint within the process.
+
+    step(u (S, n), state) -> (u_next, state_next, loss (S,) at u, aux at u). Adam: one jitted, vmapped
+    pure function (loss, gradient, optax update). L-BFGS: ``_quasi_newton.make_lbfgs`` over the jitted,
+    vmapped loss and gradient, with its line search on the host (that module says why).
+    """
     if setup.fingerprint in _COMPILED:
         return _COMPILED[setup.fingerprint]
     loss_fn = make_loss(setup)
+    if setup.opts.optimizer == "lbfgs":
+        from ._quasi_newton import make_lbfgs
+
+        pair = make_lbfgs(jax.jit(jax.vmap(jax.value_and_grad(loss_fn, has_aux=True))))
+        _COMPILED[setup.fingerprint] = pair
+        return pair
     opt = make_optimizer(setup.opts)
-    lbfgs = setup.opts.optimizer == "lbfgs"
 
     def one_step(u, state):
         (loss, aux), g = jax.value_and_grad(loss_fn, has_aux=True)(u)
         g = jnp.where(jnp.isfinite(g), g, 0.0)
-        if lbfgs:
-            updates, state = opt.update(g, state, u, value=loss, grad=g,
-                                        value_fn=lambda x: loss_fn(x)[0])
-        else:
-            updates, state = opt.update(g, state, u)
+        updates, state = opt.update(g, state, u)
         return optax.apply_updates(u, updates), state, loss, aux
 
     pair = (jax.jit(jax.vmap(opt.init)), jax.jit(jax.vmap(one_step)))

@@ -37,7 +37,8 @@ HARD = [{"metric": "modulation_depth", "sense": ">=", "target": 1.5},
 
 def make_setup(goals=HARD, resolutions=(1,), corrections=("kelly",), steps=8, **extra):
     spec, fab, cell = parse_spec(spec_doc(goals)), parse_fab(FAB), parse_cell(CELL)
-    cfg = {"optimizer": {"steps": steps, "starts": 3, "seed": extra.pop("seed", 0)},
+    cfg = {"optimizer": {"steps": steps, "starts": 3, "seed": extra.pop("seed", 0),
+                         "name": extra.pop("optimizer", "adam")},
            "robust": {"resolutions": list(resolutions), "corrections": list(corrections),
                       "temperature": extra.pop("temperature", 0.0)},
            "checkpoint": {"every": 3},
@@ -178,3 +179,14 @@ def test_convergence_report_flags_a_gap_coupled_artefact():
     rep = convergence_report(loose, wl, goal_fn, resolutions=(1, 5), corrections=("kelly",),
                              forward_cache=cache)
     assert rep["ok"] and rep["spread"]["extinction_peak"] < 0.01
+
+
+def test_lbfgs_run_never_raises_a_start_s_loss(tmp_path):
+    # Armijo backtracking (Nocedal & Wright 2006, §3.1): every accepted step lowers the loss; a failed
+    # search leaves the start where it was. Adam has no such guarantee, so this is L-BFGS's own property.
+    setup = make_setup(steps=6, optimizer="lbfgs")
+    result = opt.run(setup, tmp_path, quiet=True)
+    cols = [i for i, c in enumerate(opt.history_columns(setup)) if c.startswith("loss_start")]
+    per_start = result["history"][:, cols]
+    assert np.all(np.diff(per_start, axis=0) <= 0.0), per_start
+    assert per_start[-1].min() < per_start[0].min()
