@@ -362,10 +362,6 @@ def tolerance(cfg) -> None:
     path = pathlib.Path(opts.design).expanduser()
     design = Design.from_json(path)
     model = build_model(cfg.model)
-    if model.size_damping:
-        from ._optimize import SIZE_DAMPING_NOT_YET
-
-        raise InvdesignError(SIZE_DAMPING_NOT_YET)
     sigma = tol.sigmas(fab.tolerance, opts.sigma_scale)
     ev = tol.make_evaluator(design, spec, fab, model, batch=opts.batch)
     out = _run_dir()

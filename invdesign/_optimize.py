@@ -93,10 +93,6 @@ ROBUST_GAP_THRESHOLD_NM = 40.0
 #: 0.08 ceiling; depth 0.67 against 0.8 under moroz), so N = 1 joins the default set.
 ROBUST_DEFAULT_RESOLUTIONS = (1, 3, 5)
 OPTIMIZERS = ("adam", "lbfgs")
-SIZE_DAMPING_NOT_YET = ("model.size_damping=true works in 'invdesign simulate' and the Python API only "
-                        "so far; optimize, tradeoff and tolerance still use the bulk metal model. Set "
-                        "model.size_damping=false here and check the final design with "
-                        "'invdesign simulate model.size_damping=true'")
 FAB_STATISTICS = ("mean", "quantile")
 
 
@@ -139,6 +135,14 @@ class RunOptions:
     report_corrections: tuple = DEFAULT_CORRECTIONS
     fab_robust: FabRobust | None = None   # None: the nominal cell only
     environment: str = "averaged"     # ModelOptions.environment of every model of the run
+    size_damping: bool = False        # ModelOptions.size_damping of every model of the run
+    size_damping_coefficient: float = 1.0   # its surface-scattering factor A
+
+    def model(self, dipoles_per_rod: int, correction: str) -> ModelOptions:
+        """The forward-model options of one robust-set member under this run's physics settings."""
+        return ModelOptions(int(dipoles_per_rod), str(correction), environment=self.environment,
+                            size_damping=self.size_damping,
+                            size_damping_coefficient=self.size_damping_coefficient)
 
 
 def parse_fab_robust(doc, fab: FabDeck) -> FabRobust | None:
@@ -206,8 +210,13 @@ def parse_run_options(cfg: dict, fab: FabDeck, model: dict) -> RunOptions:
         "corrections": "corrections of the report"})
     ck = _Reader(cfg.get("checkpoint", {}), "checkpoint", {"every": "checkpoint every N steps (>= 1)"})
     correction = str(model.get("correction", "kelly"))
-    if model.get("size_damping", False):
-        raise SpecError(SIZE_DAMPING_NOT_YET)
+    damping = model.get("size_damping", False)
+    if not isinstance(damping, bool):
+        raise SpecError(f"model.size_damping must be true or false, got {damping!r}")
+    coefficient = model.get("size_damping_coefficient", 1.0)
+    if isinstance(coefficient, bool) or not isinstance(coefficient, (int, float)) or not coefficient >= 0:
+        raise SpecError(f"model.size_damping_coefficient (surface-scattering factor A) must be >= 0, "
+                        f"got {coefficient!r}")
     from ._simulate import ENVIRONMENTS
 
     environment = str(model.get("environment", "averaged"))
@@ -252,7 +261,8 @@ def parse_run_options(cfg: dict, fab: FabDeck, model: dict) -> RunOptions:
         checkpoint_every=ck.number("every", 10, integer=True, minimum=1),
         accept_flagged=rob.flag("accept_flagged", False),
         report_resolutions=tuple(int(n) for n in rep_res), report_corrections=tuple(rep_cor),
-        fab_robust=parse_fab_robust(cfg.get("fab_robust"), fab), environment=environment)
+        fab_robust=parse_fab_robust(cfg.get("fab_robust"), fab), environment=environment,
+        size_damping=damping, size_damping_coefficient=float(coefficient))
 
 
 # ------------------------------------------------------------------------------------------ setup
@@ -324,7 +334,7 @@ def build_setup(spec: Spec, fab: FabDeck, cell: CellSpec, opts: RunOptions) -> S
     windows, depths = goal_windows(spec, wl, i0)
     s_lo, s_hi = family.period_scale_bounds
     scales = (s_lo, 1.0, s_hi)
-    problems = tuple(prepare(start_design, wl, model=ModelOptions(n, c, environment=opts.environment),
+    problems = tuple(prepare(start_design, wl, model=opts.model(n, c),
                              period_scales=scales)
                      for n, c in opts.models)
     doc = {"spec": dataclasses.asdict(spec), "fab": dataclasses.asdict(fab),
@@ -333,6 +343,8 @@ def build_setup(spec: Spec, fab: FabDeck, cell: CellSpec, opts: RunOptions) -> S
         del doc["opts"]["fab_robust"]
     if opts.environment == "averaged":  # likewise for the environment option
         del doc["opts"]["environment"]
+    if not opts.size_damping:  # and for size damping
+        del doc["opts"]["size_damping"], doc["opts"]["size_damping_coefficient"]
     fp = hashlib.sha256(json.dumps(doc, sort_keys=True, default=str).encode()).hexdigest()[:16]
     return Setup(spec, fab, cell, opts, family, wl, i0, windows, depths, problems,
                  start_design, scales, fp)
@@ -695,7 +707,7 @@ def _forward(setup: Setup, n: int, correction: str):
     key = (int(n), str(correction))
     if key not in cache:
         pb = prepare(setup.start_design, setup.wavelengths,
-                     model=ModelOptions(int(n), str(correction), environment=setup.opts.environment),
+                     model=setup.opts.model(n, correction),
                      period_scales=setup.period_scales)
         cache[key] = jax.jit(lambda p: response_from_params(p, pb))
     return cache[key]
@@ -773,7 +785,7 @@ def precompile(setup: Setup, keys, threads: int = 2) -> None:
 
     def build(key):
         pb = prepare(setup.start_design, setup.wavelengths,
-                     model=ModelOptions(*key, environment=setup.opts.environment),
+                     model=setup.opts.model(*key),
                      period_scales=setup.period_scales)
         return key, jax.jit(lambda p: response_from_params(p, pb)).lower(params).compile()
 

@@ -14,7 +14,7 @@ import pytest
 from helpers import SMALL_CELL as CELL
 from helpers import SMALL_FAB as FAB
 
-from invdesign import Design, ModelOptions
+from invdesign import Design, ModelOptions, SpecError
 from invdesign import _optimize as opt
 from invdesign._cells import concrete
 from invdesign._convergence import convergence_report, format_report
@@ -43,7 +43,8 @@ def make_setup(goals=HARD, resolutions=(1,), corrections=("kelly",), steps=8, **
                       "temperature": extra.pop("temperature", 0.0)},
            "checkpoint": {"every": 3},
            "report": {"resolutions": [1], "corrections": ["kelly"]}}
-    return opt.build_setup(spec, fab, cell, opt.parse_run_options(cfg, fab, {"correction": "kelly"}))
+    model = {"correction": "kelly", **extra.pop("model", {})}
+    return opt.build_setup(spec, fab, cell, opt.parse_run_options(cfg, fab, model))
 
 
 def test_goals_are_the_metrics_of_the_response():
@@ -190,3 +191,22 @@ def test_lbfgs_run_never_raises_a_start_s_loss(tmp_path):
     per_start = result["history"][:, cols]
     assert np.all(np.diff(per_start, axis=0) <= 0.0), per_start
     assert per_start[-1].min() < per_start[0].min()
+
+
+def test_size_damping_reaches_every_model_of_the_run():
+    # the optimiser's loss and its exact re-check must use the same physics as 'simulate' does
+    from invdesign import simulate
+
+    bulk, damped = make_setup(), make_setup(model={"size_damping": True, "size_damping_coefficient": 2.0})
+    assert damped.fingerprint != bulk.fingerprint
+    assert all(p.model.size_damping and p.model.size_damping_coefficient == 2.0 for p in damped.problems)
+    design = damped.start_design
+    params = concrete(design.params)
+    ref = simulate(design, damped.wavelengths,
+                   model=ModelOptions(1, "kelly", size_damping=True, size_damping_coefficient=2.0))
+    got = opt._forward(damped, 1, "kelly")(params)
+    np.testing.assert_allclose(np.asarray(got.t), np.asarray(ref.t), rtol=1e-12, atol=1e-14)
+    plain = opt._forward(bulk, 1, "kelly")(params)
+    assert np.max(np.abs(np.asarray(plain.t) - np.asarray(got.t))) > 1e-3  # it does change the answer
+    with pytest.raises(SpecError, match="size_damping_coefficient"):
+        make_setup(model={"size_damping": True, "size_damping_coefficient": -1})
