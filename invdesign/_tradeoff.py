@@ -121,6 +121,8 @@ class FrontOptions:
     anchor_ramp: float
     feasibility_steps: int
     utopia_offset: float
+    extreme_steps: int
+    extreme_slack: float
     jitter: float
     reference: tuple | None
     reference_offset: float
@@ -136,6 +138,8 @@ _FRONT_KEYS = {
     "anchor_ramp": "fraction of the anchor steps over which the scalarisation is ramped in (0-1)",
     "feasibility_steps": "at most this many constraints-only steps before the anchors (>= 0; stops once met)",
     "utopia_offset": "z* = ideal - utopia_offset * span (>= 0)",
+    "extreme_steps": "Adam steps of the extremes' epsilon-constraint refinement (>= 0; 0 skips it)",
+    "extreme_slack": "an extreme's own objective may worsen by this fraction of its span (0-1)",
     "jitter": "spread of extra warm starts in unconstrained units (>= 0)",
     "reference": "'auto' or a list of one reference value per objective, in the objectives' units",
     "reference_offset": "auto reference = worst front value + reference_offset * front range (> 0)",
@@ -192,6 +196,10 @@ def parse_front(doc, n_objectives: int) -> FrontOptions:
     ramp = r.number("anchor_ramp", 0.4, minimum=0.0)
     if ramp >= 1:
         raise SpecError(f"front.anchor_ramp must be in [0, 1), got {ramp}")
+    slack = r.number("extreme_slack", 0.01, minimum=0.0)
+    if slack >= 1:
+        raise SpecError(f"front.extreme_slack must be in [0, 1) (a fraction of the objective's span), "
+                        f"got {slack}")
     return FrontOptions(
         divisions=int(div), steps=r.number("steps", 20, integer=True, minimum=1),
         lr_fraction=r.number("lr_fraction", 0.5, positive=True),
@@ -200,6 +208,7 @@ def parse_front(doc, n_objectives: int) -> FrontOptions:
         anchor_ramp=ramp,
         feasibility_steps=r.number("feasibility_steps", 150, integer=True, minimum=0),
         utopia_offset=r.number("utopia_offset", 0.01, minimum=0.0),
+        extreme_steps=r.number("extreme_steps", 100, integer=True, minimum=0), extreme_slack=slack,
         jitter=r.number("jitter", 0.3, minimum=0.0), reference=ref,
         reference_offset=r.number("reference_offset", 0.1, positive=True),
         depth=r.number("depth", None, positive=True))
@@ -310,12 +319,17 @@ def exact_objectives(resp, ts: TradeSetup) -> np.ndarray:
 
 
 def make_front_loss(ts: TradeSetup):
-    """loss(u, w, z, span, alpha) -> (loss, aux): the penalised augmented Tchebycheff scalarisation of one
-    row, the scalarisation weighted by alpha in [0, 1] (the anchors' feasibility-first ramp)."""
+    """loss(u, w, z, span, alpha, bound, bound_on) -> (loss, aux): the penalised augmented Tchebycheff
+    scalarisation of one row, the scalarisation weighted by alpha in [0, 1] (the anchors' feasibility-first
+    ramp). ``bound`` (m,) oriented objective values and ``bound_on`` (m,) 0/1: every objective with
+    bound_on = 1 is held at or below its bound by the exact penalty μ·relu((f_j − bound_j)/span_j) (the
+    ε-constraints of the extremes phase; linear, so that it holds the bound for any trade-off slope below
+    μ, where a quadratic one would give way by slope/2μ); bound_on = 0 everywhere gives the plain
+    scalarisation."""
     setup, fr = ts.base, ts.front
     has_goals = len(setup.spec.goals) > 0
 
-    def loss_fn(u, w, z, span, alpha):
+    def loss_fn(u, w, z, span, alpha, bound, bound_on):
         params = setup.family.params(u)
         resps = [response_from_params(params, pb) for pb in setup.problems]
         f = opt.robust_combine(jnp.stack([smooth_objectives(r, ts) for r in resps]), setup.opts.temperature)
@@ -328,8 +342,9 @@ def make_front_loss(ts: TradeSetup):
         else:
             cons = jnp.zeros(())
         pen, _ = rule_penalty(params, setup.fab, setup.opts.gap_margin_nm)
-        total = alpha * scal + fr.constraint_weight * (cons + setup.opts.rules_weight * pen)
-        return total, {"objectives": f, "constraints": cons, "penalty": pen}
+        held = jnp.sum(bound_on * jax.nn.relu((f - bound) / span))  # exact (linear) penalty
+        total = alpha * scal + fr.constraint_weight * (cons + setup.opts.rules_weight * pen + held)
+        return total, {"objectives": f, "constraints": cons, "penalty": pen, "held": held}
 
     return loss_fn
 
@@ -344,8 +359,8 @@ def compiled_front_step(ts: TradeSetup):
     loss_fn = make_front_loss(ts)
     adam = optax.scale_by_adam()
 
-    def one_step(u, state, w, z, span, lr, alpha):
-        (loss, aux), g = jax.value_and_grad(loss_fn, has_aux=True)(u, w, z, span, alpha)
+    def one_step(u, state, w, z, span, lr, alpha, bound, bound_on):
+        (loss, aux), g = jax.value_and_grad(loss_fn, has_aux=True)(u, w, z, span, alpha, bound, bound_on)
         g = jnp.where(jnp.isfinite(g), g, 0.0)
         direction, state = adam.update(g, state, u)
         return u - lr * direction, state, loss, aux
@@ -362,8 +377,11 @@ def _schedule(opts: opt.RunOptions, peak: float, steps: int, warmup: int):
         decay_steps=max(steps, warmup + 1), end_value=peak * opts.final_lr_fraction)
 
 
-def _phase(ts, u0, w, z, span, steps, peak, warmup, flag, ramp=0.0, feasibility=False):
+def _phase(ts, u0, w, z, span, steps, peak, warmup, flag, ramp=0.0, feasibility=False, bound=None,
+           bound_on=None):
     """Run one batch (rows of u0) for ``steps``; returns best u, loss and oriented objectives per row.
+
+    ``bound``, ``bound_on``: (rows, m) ε-constraints of each row (``make_front_loss``); none by default.
 
     ``ramp``: the scalarisation's weight alpha grows linearly from 0 to 1 over this fraction of the steps
     (constraints and rules first); the best iterate is tracked from the first step with alpha = 1.
@@ -375,13 +393,15 @@ def _phase(ts, u0, w, z, span, steps, peak, warmup, flag, ramp=0.0, feasibility=
     u, state = jnp.asarray(u0), init_fn(jnp.asarray(u0))
     rows = len(u0)
     zb, sb = jnp.broadcast_to(z, w.shape), jnp.broadcast_to(span, w.shape)
+    bb = jnp.zeros(w.shape) if bound is None else jnp.asarray(bound)
+    bo = jnp.zeros(w.shape) if bound_on is None else jnp.asarray(bound_on, float)
     best_u, best_loss = np.asarray(u0).copy(), np.full(rows, np.inf)
     best_f = np.full(w.shape, np.inf)
     for s in range(steps):
         u_prev = np.asarray(u)
         lr = jnp.full(rows, float(sched(s)))
         alpha = 0.0 if feasibility else min(1.0, s / (ramp * steps)) if ramp > 0 else 1.0
-        u, state, loss, aux = step_fn(u, state, jnp.asarray(w), zb, sb, lr, jnp.full(rows, alpha))
+        u, state, loss, aux = step_fn(u, state, jnp.asarray(w), zb, sb, lr, jnp.full(rows, alpha), bb, bo)
         loss = np.asarray(loss)
         finite = np.where(np.isfinite(loss), loss, np.inf)
         better = (finite < best_loss) if alpha >= 1.0 or feasibility else np.ones(rows, bool)
@@ -400,12 +420,90 @@ def _save(run_dir, ts, state):
     _checkpoint.save(run_dir, arrays, {"fingerprint": ts.fingerprint, "phases": state["phases"]})
 
 
-def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves: int | None = None) -> dict:
-    """The whole sweep (anchors, then continuation waves), resuming from the run folder's checkpoint.
+def reference_scales(known, extremes, scales, utopia_offset):
+    """(z*, span) of the scalarisation, both (m,) oriented: ideal = the best of each objective over
+    ``known`` (k, m) oriented values, nadir = the worst over ``extremes`` (m, m) (row i the extreme of
+    objective i), span = nadir − ideal (at least 10⁻³ of ``scales``), z* = ideal − utopia_offset·span."""
+    ideal = np.minimum(np.min(known, axis=0), np.min(extremes, axis=0))
+    span = np.maximum(np.max(extremes, axis=0) - ideal, 1e-3 * np.asarray(scales, float))
+    return ideal - utopia_offset * span, span
 
-    ``stop_after_waves``: return after this many waves past the anchors without finishing (tests use it
-    to imitate a kill between waves). Returns the state dict: per lattice point ``u``, ``loss``, ``f``
-    (oriented smooth objectives at the best iterate) and ``done``, plus ``z``, ``span``, ``evaluations``.
+
+def extreme_bounds(anchor_f, span, slack: float):
+    """(aimed, accepted), both (m,) oriented: the bound the extremes phase holds objective i at (its
+    anchor value plus ½·``slack``·span_i) and the one a refined extreme must meet to replace its anchor
+    (plus ``slack``·span_i; the half slack between them absorbs the penalty's overshoot).
+    ``anchor_f`` (m, m): oriented objectives of each anchor (row i minimised objective i)."""
+    own, span = np.diag(np.asarray(anchor_f, float)), np.asarray(span, float)
+    return own + 0.5 * slack * span, own + slack * span
+
+
+def extreme_rows(anchor_f, span, starts: int, slack: float):
+    """(w, bound, bound_on), each (m·starts, m), of the extremes phase: the rows of vertex i minimise the
+    Tchebycheff scalarisation of the other objectives (weights 1/(m−1)) while objective i is held at or
+    below its aimed bound (``extreme_bounds``)."""
+    m = len(anchor_f)
+    eye = np.eye(m)
+    w = np.repeat((1.0 - eye) / (m - 1), starts, axis=0)
+    aimed, _ = extreme_bounds(anchor_f, span, slack)
+    return w, np.repeat(np.diag(aimed), starts, axis=0), np.repeat(eye, starts, axis=0)
+
+
+def extreme_starts(best, anchor_u, anchor_loss, starts: int) -> np.ndarray:
+    """(m·starts, n_free) starts of the extremes phase: vertex i's rows begin at its own best anchor, then
+    at the other vertices' best anchors (the nearest first in index order, cycling), then at its other
+    anchor starts by their loss. ``best`` (m, n_free) the vertices' best anchors; ``anchor_u`` (m·starts,
+    n_free) and ``anchor_loss`` (m·starts,) every anchor row."""
+    m = len(best)
+    out = []
+    for i in range(m):
+        others = [best[(i + d) % m] for d in range(1, m)]
+        own = anchor_u[i * starts:(i + 1) * starts][np.argsort(anchor_loss[i * starts:(i + 1) * starts])]
+        pick = [best[i]] + others + list(own[1:])
+        out += pick[:starts]
+    return np.stack(out)
+
+
+def _extremes(ts: TradeSetup, state: dict, flag, say) -> None:
+    """The extremes phase (module docstring, step 2): ε-constraint refinement of every anchor from each
+    of its starts' best iterates; a vertex takes the refined point only when it holds its bound."""
+    fr, opts = ts.front, ts.base.opts
+    verts, rows, k = ts.vertices, ts.rows, ts.base.opts.starts
+    t = time.perf_counter()
+    u0 = extreme_starts(state["u"][verts], state["pool_u"][:rows], state["pool_loss"][:rows], k)
+    w, bound, on = extreme_rows(state["anchor_f"], state["span"], k, fr.extreme_slack)
+    _, accept = extreme_bounds(state["anchor_f"], state["span"], fr.extreme_slack)
+    bu, bl, bf, _ = _phase(ts, u0, w, state["z"], state["span"], fr.extreme_steps,
+                           opts.learning_rate * fr.lr_fraction, max(1, fr.extreme_steps // 10), flag,
+                           bound=bound, bound_on=on)
+    taken = []
+    for i, v in enumerate(verts):
+        mine = [r for r in range(i * k, (i + 1) * k) if bf[r, i] <= accept[i] and np.isfinite(bl[r])]
+        if mine:
+            r = mine[int(np.argmin(bl[mine]))]
+            state["u"][v], state["loss"][v], state["f"][v] = bu[r], bl[r], bf[r]
+        taken.append(bool(mine))
+    _pool(state, bu, np.repeat(verts, k), bl)
+    state["z"], state["span"] = reference_scales(state["anchor_f"], state["f"][verts],
+                                                 np.array([o.scale for o in ts.objectives]), fr.utopia_offset)
+    state["evaluations"] = state["evaluations"] + rows * fr.extreme_steps
+    state["phases"].append({"phase": "extremes", "points": [int(v) for v in verts], "rows": rows,
+                            "steps": fr.extreme_steps, "refined": taken,
+                            "seconds": round(time.perf_counter() - t, 2)})
+    say(f"  extremes: {len(verts)} vertices x {k} starts, {fr.extreme_steps} steps, refined "
+        f"{sum(taken)}/{len(verts)} ({time.perf_counter() - t:.1f} s)")
+
+
+def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves: int | None = None,
+              stop_after_anchors: bool = False) -> dict:
+    """The whole sweep (anchors, extremes, then continuation waves), resuming from the run folder's
+    checkpoint.
+
+    ``stop_after_waves``: return after this many waves past the extremes without finishing;
+    ``stop_after_anchors``: return right after the anchors (tests use both to imitate a kill between
+    phases). Returns the state dict: per lattice point ``u``, ``loss``, ``f`` (oriented smooth objectives
+    at the best iterate) and ``done``, plus ``z``, ``span``, ``anchor_f`` (the anchors' payoff table, row i
+    the anchor of objective i), ``evaluations``.
     """
     setup, fr, opts = ts.base, ts.front, ts.base.opts
     n, m = ts.weights.shape
@@ -415,7 +513,7 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
         state = {"u": np.zeros((n, nfree)), "loss": np.full(n, np.inf), "f": np.full((n, m), np.inf),
                  "done": np.zeros(n, bool), "z": np.zeros(m), "span": np.ones(m),
                  "pool_u": np.zeros((0, nfree)), "pool_point": np.zeros(0, int), "pool_loss": np.zeros(0),
-                 "evaluations": np.zeros((), int), "phases": []}
+                 "anchor_f": np.full((m, m), np.inf), "evaluations": np.zeros((), int), "phases": []}
     else:
         arrays, header = saved
         state = dict(arrays)
@@ -442,11 +540,9 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
                 state["u"][v], state["loss"][v], state["f"][v] = bu[k], bl[k], bf[k]
                 state["done"][v] = True
             _pool(state, bu, np.repeat(verts, opts.starts), bl)
-            payoff = state["f"][verts]
-            ideal, nadir = payoff.min(axis=0), payoff.max(axis=0)
-            span = np.maximum(nadir - ideal, 1e-3 * scales)
-            state["span"] = span
-            state["z"] = ideal - fr.utopia_offset * span
+            state["anchor_f"] = state["f"][verts].copy()
+            state["z"], state["span"] = reference_scales(state["anchor_f"], state["anchor_f"], scales,
+                                                         fr.utopia_offset)
             state["evaluations"] = state["evaluations"] + rows * (opts.steps + feas_steps)
             state["phases"].append({"phase": "anchors", "points": [int(v) for v in verts],
                                     "rows": rows, "steps": opts.steps, "feasibility_steps": feas_steps,
@@ -454,6 +550,11 @@ def run_front(ts: TradeSetup, run_dir, *, quiet: bool = False, stop_after_waves:
             _save(run_dir, ts, state)
             say(f"  anchors: {m} objectives x {opts.starts} starts, {feas_steps} feasibility + {opts.steps} "
                 f"steps ({time.perf_counter() - t:.1f} s)")
+        if stop_after_anchors:
+            return {**state, "interrupted": True}
+        if fr.extreme_steps > 0 and not any(ph["phase"] == "extremes" for ph in state["phases"]):
+            _extremes(ts, state, flag, say)
+            _save(run_dir, ts, state)
         plan = waves(ts.lattice, np.isin(np.arange(n), verts))
         chunks = [wave[i:i + rows] for wave in plan for i in range(0, len(wave), rows)]
         done_waves = 0
