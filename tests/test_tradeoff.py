@@ -24,7 +24,7 @@ from invdesign._errors import SpecError
 from invdesign._pareto import dominates
 from invdesign._penalties import check_rules
 from invdesign._spec import parse_cell, parse_fab, parse_spec
-from invdesign._tradeoff import build_tradeoff, evaluate_front, run_front
+from invdesign._tradeoff import build_tradeoff, evaluate_front, extreme_bounds, reference_scales, run_front
 from invdesign._tradeoff_io import write_front
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
@@ -59,8 +59,9 @@ def front(tmp_path_factory):
 
 def test_front_points_are_mutually_non_dominated_and_fab_clean(front):
     ts, state, cands, res, out = front
-    # every row's best is a candidate: 2 anchors x 2 starts, then waves {1, 3} and {2} of 4 rows each
-    assert state["done"].all() and len(cands) == 12
+    # every row's best is a candidate: 2 anchors x 2 starts, their 4 extremes rows, then waves {1, 3} and
+    # {2} of 4 rows each
+    assert state["done"].all() and len(cands) == 16
     assert sorted({c["lattice_point"] for c in cands}) == [0, 1, 2, 3, 4]
     pts = res["front"]
     assert len(pts) >= 3  # a real trade-off: the anchors differ and the interior fills in
@@ -106,6 +107,46 @@ def test_anchors_bound_the_front(front):
         assert state["f"][v, i] <= state["f"][:, i].min() + 0.02 * state["span"][i]
 
 
+def test_refined_extremes_hold_their_bound_and_are_no_worse_than_their_anchors(front):
+    ts, state, *_ = front
+    # the extremes phase holds objective i of vertex i within its slack of the anchor's value and trades it
+    # only for the others: a vertex that took a refined point is no worse than its anchor in the others
+    # (the phase's loss counts the anchor itself at step 0, so a refinement that made them worse would
+    # not be the best iterate), and one that did not kept its anchor exactly
+    scales = np.array([o.scale for o in ts.objectives])
+    _, span0 = reference_scales(state["anchor_f"], state["anchor_f"], scales, ts.front.utopia_offset)
+    _, accept = extreme_bounds(state["anchor_f"], span0, ts.front.extreme_slack)
+    (phase,) = [p for p in state["phases"] if p["phase"] == "extremes"]
+    assert phase["steps"] == ts.front.extreme_steps and phase["rows"] == ts.rows
+    for i, v in enumerate(ts.vertices):
+        f, a = state["f"][v], state["anchor_f"][i]
+        others = np.arange(len(f)) != i
+        if phase["refined"][i]:
+            assert f[i] <= accept[i]
+            assert np.sum(f[others] / span0[others]) <= np.sum(a[others] / span0[others]) + 1e-9
+        else:
+            np.testing.assert_array_equal(f, a)
+    # the scalarisation's scales come from the refined extremes (nadir) and everything seen (ideal)
+    z, span = reference_scales(state["anchor_f"], state["f"][ts.vertices], scales, ts.front.utopia_offset)
+    np.testing.assert_allclose(state["z"], z, rtol=0, atol=0)
+    np.testing.assert_allclose(state["span"], span, rtol=0, atol=0)
+
+
+def test_sweep_stopped_after_the_anchors_resumes_without_redoing_them(front, tmp_path):
+    ts, state, *_ = front
+    part = run_front(ts, tmp_path, quiet=True, stop_after_anchors=True)
+    assert part.get("interrupted") and [p["phase"] for p in part["phases"]] == ["anchors"]
+    mid = run_front(ts, tmp_path, quiet=True, stop_after_waves=0)  # runs the extremes, stops before waves
+    assert [p["phase"] for p in mid["phases"]] == ["anchors", "extremes"]
+    again = run_front(ts, tmp_path, quiet=True)
+    assert [p["phase"] for p in again["phases"]][:2] == ["anchors", "extremes"]
+    assert sum(p["phase"] == "extremes" for p in again["phases"]) == 1  # not redone on resume
+    assert int(again["evaluations"]) == int(state["evaluations"])
+    np.testing.assert_allclose(again["anchor_f"], state["anchor_f"], rtol=0, atol=1e-12)
+    np.testing.assert_allclose(again["u"], state["u"], rtol=0, atol=1e-9)
+    np.testing.assert_allclose(again["pool_u"], state["pool_u"], rtol=0, atol=1e-9)
+
+
 def test_stopped_sweep_resumes_to_the_same_front(front, tmp_path):
     ts, state, *_ = front
     part = run_front(ts, tmp_path, quiet=True, stop_after_waves=1)
@@ -125,6 +166,10 @@ def test_bad_objectives_are_refused_by_name():
         small(front={"divisions": 0})
     with pytest.raises(SpecError, match="front.reference"):
         small(front={"reference": [1.0]})
+    with pytest.raises(SpecError, match=r"front.extreme_slack must be in \[0, 1\)"):
+        small(front={"extreme_slack": 1.5})
+    with pytest.raises(SpecError, match="front.extreme_steps must be at least 0"):
+        small(front={"extreme_steps": -1})
     with pytest.raises(SpecError, match="front: unknown key 'weigths'"):
         small(front={"weigths": 3})
 

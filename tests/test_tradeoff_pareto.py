@@ -111,3 +111,32 @@ def test_waves_step_one_lattice_neighbour_at_a_time():
             assert s in solved and np.abs(lat3[p] - lat3[s]).sum() == 2  # one unit moved: a neighbour
         solved |= {p for p, _ in wave}
     assert solved == set(range(len(lat3)))
+
+
+def test_extremes_rows_bounds_and_starts_hand_derived():
+    from invdesign._tradeoff import extreme_bounds, extreme_rows, extreme_starts, reference_scales
+
+    # payoff table of two anchors (oriented): anchor 0 minimised objective 0 at (0.5, 1.4), anchor 1
+    # objective 1 at (2.7, 0.42); ideal (0.5, 0.42), nadir (2.7, 1.4), span (2.2, 0.98) (hand-derived)
+    payoff = np.array([[0.5, 1.4], [2.7, 0.42]])
+    z, span = reference_scales(payoff, payoff, np.ones(2), 0.01)
+    np.testing.assert_allclose(span, [2.2, 0.98], rtol=1e-14)
+    np.testing.assert_allclose(z, [0.5 - 0.022, 0.42 - 0.0098], rtol=1e-14)
+    # bounds: own value + ½·0.01·span aimed, + 0.01·span accepted
+    aimed, accept = extreme_bounds(payoff, span, 0.01)
+    np.testing.assert_allclose(aimed, [0.511, 0.4249], rtol=1e-14)
+    np.testing.assert_allclose(accept, [0.522, 0.4298], rtol=1e-14)
+    # rows (2 starts each): vertex 0's rows weigh objective 1 and hold objective 0, and vice versa
+    w, bound, on = extreme_rows(payoff, span, 2, 0.01)
+    np.testing.assert_array_equal(w, [[0, 1], [0, 1], [1, 0], [1, 0]])
+    np.testing.assert_array_equal(on, [[1, 0], [1, 0], [0, 1], [0, 1]])
+    np.testing.assert_allclose(bound[:, 0], [0.511, 0.511, 0, 0], rtol=1e-14)
+    np.testing.assert_allclose(bound[:, 1], [0, 0, 0.4249, 0.4249], rtol=1e-14)
+    # starts: own best first, then the other vertex's best; with 3 starts also the own second-best start
+    best = np.array([[1.0], [2.0]])
+    rows = np.array([[1.5], [1.0], [2.0], [2.5]])  # anchor rows, two starts per vertex
+    loss = np.array([0.9, 0.1, 0.2, 0.3])
+    np.testing.assert_array_equal(extreme_starts(best, rows, loss, 2)[:, 0], [1.0, 2.0, 2.0, 1.0])
+    rows3 = np.array([[1.5], [1.0], [1.7], [2.0], [2.5], [2.7]])
+    loss3 = np.array([0.9, 0.1, 0.5, 0.2, 0.3, 0.8])
+    np.testing.assert_array_equal(extreme_starts(best, rows3, loss3, 3)[:, 0], [1.0, 2.0, 1.7, 2.0, 1.0, 2.5])
