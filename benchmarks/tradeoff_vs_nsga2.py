@@ -26,6 +26,7 @@ import tempfile
 import time
 
 import numpy as np
+import yaml
 
 ROOT = pathlib.Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
@@ -52,8 +53,11 @@ def build(args):
            "robust": {"resolutions": [1], "corrections": ["kelly"]},
            "report": {"resolutions": [1], "corrections": ["kelly"]}}
     opts = opt.parse_run_options(cfg, fab, {"correction": "kelly"})
-    return build_tradeoff(spec, fab, cell, opts, ["insertion_loss_db", "control_power_ratio"],
-                          {"steps": args.point_steps, "divisions": args.divisions})
+    front = {"steps": args.point_steps, "divisions": args.divisions}
+    for item in args.front:
+        key, _, text = item.partition("=")
+        front[key] = yaml.safe_load(text)
+    return build_tradeoff(spec, fab, cell, opts, ["insertion_loss_db", "control_power_ratio"], front)
 
 
 def exact_front(ts, us):
@@ -135,11 +139,14 @@ def main():
     ap.add_argument("--starts", type=int, default=2)
     ap.add_argument("--pop-size", type=int, default=40)
     ap.add_argument("--seed", type=int, default=0)
+    ap.add_argument("--front", action="append", default=[], metavar="KEY=VALUE",
+                    help="a front option other than its default (conf/tradeoff.yaml), e.g. polish_steps=0; "
+                         "repeatable")
     args = ap.parse_args()
     ts = build(args)
     t0 = time.perf_counter()
     with tempfile.TemporaryDirectory() as tmp:
-        state = run_front(ts, tmp, quiet=True)
+        state = run_front(ts, tmp, quiet=False)
     ours_s = time.perf_counter() - t0
     n_ours = int(state["evaluations"])
     fronts = {"gradient front": (exact_front(ts, state["pool_u"]), n_ours, ours_s)}

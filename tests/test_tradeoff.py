@@ -59,9 +59,9 @@ def front(tmp_path_factory):
 
 def test_front_points_are_mutually_non_dominated_and_fab_clean(front):
     ts, state, cands, res, out = front
-    # every row's best is a candidate: 2 anchors x 2 starts, their 4 extremes rows, then waves {1, 3} and
-    # {2} of 4 rows each
-    assert state["done"].all() and len(cands) == 16
+    # every row's best is a candidate: 2 anchors x 2 starts, their 4 polished rows, their 4 extremes rows,
+    # then waves {1, 3} and {2} of 4 rows each
+    assert state["done"].all() and len(cands) == 20
     assert sorted({c["lattice_point"] for c in cands}) == [0, 1, 2, 3, 4]
     pts = res["front"]
     assert len(pts) >= 3  # a real trade-off: the anchors differ and the interior fills in
@@ -132,15 +132,44 @@ def test_refined_extremes_hold_their_bound_and_are_no_worse_than_their_anchors(f
     np.testing.assert_allclose(state["span"], span, rtol=0, atol=0)
 
 
+def test_polished_anchors_are_no_worse_than_their_starts_and_every_call_is_counted(front):
+    ts, state, *_ = front
+    fr, rows = ts.front, ts.rows
+    phases = {p["phase"]: p for p in state["phases"]}
+    pol = phases["polish"]
+    assert pol["rounds"] == fr.lagrange_rounds and pol["steps"] == fr.polish_steps
+    # an L-BFGS step makes at least one value-and-gradient call and every round one more at its start, so a
+    # count of steps instead of calls would fall short of this
+    assert pol["calls"] >= fr.lagrange_rounds * (fr.polish_steps + 1)
+    # every polished row keeps the best merit (the anchors' own loss, plain penalty) of its start and its
+    # rounds' ends, so it is no worse than its start, the anchor row's best iterate; a vertex took a polished
+    # row only when that beat its anchor
+    k = ts.base.opts.starts
+    polished = state["pool_loss"][rows:2 * rows]
+    assert np.all(polished <= np.asarray(pol["start_loss"]))
+    for i in range(len(ts.vertices)):
+        mine = slice(i * k, (i + 1) * k)
+        assert pol["refined"][i] == bool(polished[mine].min() < min(pol["start_loss"][mine]))
+    # the augmented-Lagrangian shifts are the multiplier estimates: never negative
+    assert np.min(pol["shift"]) >= 0
+    # the evaluation count is the sum over every phase: rows x (steps of Adam, calls of L-BFGS)
+    anchors = phases["anchors"]
+    expect = rows * (anchors["steps"] + anchors["feasibility_steps"]) + rows * pol["calls"]
+    expect += rows * phases["extremes"]["calls"]
+    expect += sum(p["rows"] * p["steps"] for p in state["phases"] if p["phase"].startswith("wave"))
+    assert int(state["evaluations"]) == expect
+
+
 def test_sweep_stopped_after_the_anchors_resumes_without_redoing_them(front, tmp_path):
     ts, state, *_ = front
     part = run_front(ts, tmp_path, quiet=True, stop_after_anchors=True)
     assert part.get("interrupted") and [p["phase"] for p in part["phases"]] == ["anchors"]
     mid = run_front(ts, tmp_path, quiet=True, stop_after_waves=0)  # runs the extremes, stops before waves
-    assert [p["phase"] for p in mid["phases"]] == ["anchors", "extremes"]
+    assert [p["phase"] for p in mid["phases"]] == ["anchors", "polish", "extremes"]
     again = run_front(ts, tmp_path, quiet=True)
-    assert [p["phase"] for p in again["phases"]][:2] == ["anchors", "extremes"]
-    assert sum(p["phase"] == "extremes" for p in again["phases"]) == 1  # not redone on resume
+    assert [p["phase"] for p in again["phases"]][:3] == ["anchors", "polish", "extremes"]
+    for name in ("polish", "extremes"):  # not redone on resume
+        assert sum(p["phase"] == name for p in again["phases"]) == 1
     assert int(again["evaluations"]) == int(state["evaluations"])
     np.testing.assert_allclose(again["anchor_f"], state["anchor_f"], rtol=0, atol=1e-12)
     np.testing.assert_allclose(again["u"], state["u"], rtol=0, atol=1e-9)
@@ -170,6 +199,16 @@ def test_bad_objectives_are_refused_by_name():
         small(front={"extreme_slack": 1.5})
     with pytest.raises(SpecError, match="front.extreme_steps must be at least 0"):
         small(front={"extreme_steps": -1})
+    with pytest.raises(SpecError, match=r"extreme_method = 'newton' is not valid; use one of: adam, lbfgs"):
+        small(front={"extreme_method": "newton"})
+    with pytest.raises(SpecError, match=r"front.warm_start = 'far' is not valid; use one of: nearest, best"):
+        small(front={"warm_start": "far"})
+    with pytest.raises(SpecError, match="front.lagrange_rounds must be at least 1"):
+        small(front={"lagrange_rounds": 0})
+    with pytest.raises(SpecError, match="front.lagrange_weight must be > 0"):
+        small(front={"lagrange_weight": 0.0})
+    with pytest.raises(SpecError, match="front.polish_steps must be a whole number"):
+        small(front={"polish_steps": 2.5})
     with pytest.raises(SpecError, match="front: unknown key 'weigths'"):
         small(front={"weigths": 3})
 

@@ -140,3 +140,43 @@ def test_extremes_rows_bounds_and_starts_hand_derived():
     rows3 = np.array([[1.5], [1.0], [1.7], [2.0], [2.5], [2.7]])
     loss3 = np.array([0.9, 0.1, 0.5, 0.2, 0.3, 0.8])
     np.testing.assert_array_equal(extreme_starts(best, rows3, loss3, 3)[:, 0], [1.0, 2.0, 1.7, 2.0, 1.0, 2.5])
+
+
+def test_augmented_lagrangian_shift_update_hand_derived():
+    import jax
+    import jax.numpy as jnp
+
+    from invdesign._tradeoff_lagrange import multipliers, shifted_goal_loss, update_shift
+
+    # min x subject to x >= 1, written as a goal with shortfall r = 1 - x and margin m = 0 (c = r + m):
+    # the KKT multiplier is λ* = 1 (d x / d x). Loss x + μ·w·(relu(1 − x + s)² − s²); stationarity
+    # 1 = 2μw·relu(1 − x + s) gives x(s) = 1 + s − 1/(2μw) (hand-derived). μ = 10, w = 2: 1/(2μw) = 0.025.
+    mu, w = 10.0, jnp.array([2.0])
+
+    def loss(x, s):
+        return x + mu * shifted_goal_loss(jnp.array([1.0 - x]), w, 0.0, jnp.array([s]))
+
+    x0 = 1.0 - 0.025                                             # the plain penalty's minimiser (s = 0)
+    assert abs(float(jax.grad(loss)(x0, 0.0))) < 1e-12
+    assert float(loss(1.0, 0.0)) == 1.0                          # ψ(c = 0, s = 0) = 0
+    s1 = update_shift(np.array([0.0]), np.array([1.0 - x0]), 0.0)   # s ← relu(s + c) = 0.025
+    np.testing.assert_allclose(s1, [0.025], rtol=1e-12)
+    np.testing.assert_allclose(multipliers(s1, [2.0], mu), [1.0], rtol=1e-12)   # λ = 2μw·s = λ* = 1
+    # the shifted loss's minimiser is now exactly on the constraint, x(s1) = 1, and stays there
+    assert abs(float(jax.grad(loss)(1.0, 0.025))) < 1e-12
+    np.testing.assert_allclose(update_shift(s1, np.array([0.0]), 0.0), s1, rtol=0)
+    # a slack constraint releases its multiplier: s = 0.3, c = −0.5 → 0; the margin counts as part of c
+    np.testing.assert_array_equal(update_shift(np.array([0.3, 0.3]), np.array([-0.5, -0.1]), 0.02),
+                                  [0.0, 0.3 - 0.1 + 0.02])
+
+
+def test_warm_sources_pick_the_best_scoring_solved_point_hand_derived():
+    from invdesign._tradeoff import warm_sources
+
+    # three solved points (oriented), one unsolved; z = 0, span = 1, augmentation 0.01
+    f = np.array([[0.0, 1.0], [0.4, 0.45], [1.0, 0.0], [0.1, 0.1]])
+    solved = np.array([True, True, True, False])
+    # w = (0.5, 0.5): scores max(0, 0.5) + 0.01 = 0.51, max(0.2, 0.225) + 0.0085 = 0.2335, 0.51 -> point 1
+    # w = (0.9, 0.1): 0.1 + 0.01 = 0.11, 0.36 + 0.0085, 0.9 + 0.01 -> point 0 (the unsolved 3 is skipped)
+    np.testing.assert_array_equal(warm_sources(f, solved, np.array([[0.5, 0.5], [0.9, 0.1]]), np.zeros(2),
+                                               np.ones(2), 0.01), [1, 0])
