@@ -21,6 +21,7 @@ deck's numbers without margin. Rods are checked as sharp rectangles: rounded cor
 this is conservative for the gap rule.
 """
 
+import dataclasses
 import math
 
 import jax
@@ -80,29 +81,40 @@ def softmin(x, tau=SOFTMIN_NM):
     return -tau * jax.nn.logsumexp(-jnp.ravel(x) / tau)
 
 
-def _shifted(rod, shift):
-    import dataclasses
+#: neighbouring-cell shifts (n1, n2) of the smooth gaps, (9, 2); (0, 0) is index 4
+SHIFTS = np.array([(i, j) for i in (-1, 0, 1) for j in (-1, 0, 1)], dtype=float)
+#: stands in for a distance that does not exist (a rod against itself); exp(−BIG/τ) is exactly 0
+_BIG_NM = 1e9
 
-    return dataclasses.replace(rod, center=rod.center + shift)
+
+def _stack_rods(rods):
+    bare = [dataclasses.replace(e, material="") for e in rods]
+    return jax.tree_util.tree_map(lambda *xs: jnp.stack([jnp.asarray(x, dtype=float) for x in xs]), *bare)
 
 
 def smooth_gaps(params) -> jax.Array:
-    """Smooth lower bounds of every pair's gap (nm), periodic images included: (n_pairs,) for i ≤ j."""
-    a1, a2 = params.a1, params.a2
-    shifts = [(i, j) for i in (-1, 0, 1) for j in (-1, 0, 1)]
-    rods = params.elements
-    out = []
-    for i in range(len(rods)):
-        for j in range(i, len(rods)):
-            ds = []
-            for n1, n2 in shifts:
-                if i == j and n1 == 0 and n2 == 0:
-                    continue
-                other = _shifted(rods[j], n1 * a1 + n2 * a2)
-                ds.append(rect_sdf(boundary_points(rods[i]), other))
-                ds.append(rect_sdf(boundary_points(other), rods[i]))
-            out.append(softmin(jnp.concatenate(ds)))
-    return jnp.stack(out)
+    """Smooth lower bounds of every pair's gap (nm), periodic images included: (n_pairs,) for i ≤ j.
+
+    Pair p = (i, j) (row-major over i ≤ j) sees rod j shifted by every neighbour-cell vector S of
+    ``SHIFTS`` (a rod against its own images when i = j, shift 0 left out): the signed distances of rod
+    i's boundary points to rod j + S and of rod j + S's points to rod i, all in one soft minimum. One
+    vectorised expression over (pairs, shifts, points): unrolling it in Python made the penalty's
+    gradient 62k lines of XLA for three rods, seven times the optical model's (measured), and its compile
+    the slowest part of an optimiser step.
+    """
+    rods = _stack_rods(params.elements)
+    n = len(params.elements)
+    i_idx, j_idx = np.triu_indices(n)
+    shifts = jnp.asarray(SHIFTS[:, :1]) * params.a1 + jnp.asarray(SHIFTS[:, 1:]) * params.a2   # (9, 2)
+    pts = jax.vmap(boundary_points)(rods)                                                        # (n, P, 2)
+    take = lambda idx: jax.tree_util.tree_map(lambda x: x[idx], rods)  # noqa: E731
+    rod_i, rod_j = take(i_idx), take(j_idx)
+    # points of i against j + S  ≡  points of i − S against j; points of j + S against i
+    d_ij = jax.vmap(lambda p, r: rect_sdf(p[None] - shifts[:, None], r))(pts[i_idx], rod_j)   # (pairs, 9, P)
+    d_ji = jax.vmap(lambda p, r: rect_sdf(p[None] + shifts[:, None], r))(pts[j_idx], rod_i)
+    self_image = jnp.asarray((i_idx == j_idx)[:, None] & np.all(SHIFTS == 0, axis=1)[None, :])  # (pairs, 9)
+    d = jnp.where(self_image[..., None], _BIG_NM, jnp.concatenate([d_ij, d_ji], axis=-1))
+    return -SOFTMIN_NM * jax.nn.logsumexp(-d.reshape(len(i_idx), -1) / SOFTMIN_NM, axis=1)
 
 
 def rule_penalty(params, fab: FabDeck, gap_margin_nm: float = 2.0) -> tuple[jax.Array, dict]:
