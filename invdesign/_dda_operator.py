@@ -126,13 +126,17 @@ def free_kernel(shape, spacing_m, k, *, chunk=2048):
 
 
 def convolve(kernel_hat, p_grid):
-    """Field Σ_j K(i − j) p̃_j on the grid: p_grid (nx, ny, nz, 3) -> (nx, ny, nz, 3), by zero-padded FFT."""
-    shape = p_grid.shape[:3]
+    """Field Σ_j K(i − j) p̃_j on the grid: p_grid (3, nx, ny, nz) -> (3, nx, ny, nz), by zero-padded FFT.
+
+    Components first, so that every FFT runs over contiguous data (measured 1.4× faster per product
+    than components last, 7392 dipoles, ``benchmarks/dda_scaling.py`` cell).
+    """
+    shape = p_grid.shape[1:]
     m = kernel_hat.shape[1:]
-    p_hat = jnp.fft.fftn(p_grid, s=m, axes=(0, 1, 2))
-    out = [sum(kernel_hat[_INDEX[a, b]] * p_hat[..., b] for b in range(3)) for a in range(3)]
-    field = jnp.fft.ifftn(jnp.stack(out, axis=-1), axes=(0, 1, 2))
-    return field[: shape[0], : shape[1], : shape[2]]
+    p_hat = jnp.fft.fftn(p_grid, s=m, axes=(1, 2, 3))
+    out = jnp.stack([sum(kernel_hat[_INDEX[a, b]] * p_hat[b] for b in range(3)) for a in range(3)])
+    field = jnp.fft.ifftn(out, axes=(1, 2, 3))
+    return field[:, : shape[0], : shape[1], : shape[2]]
 
 
 def make_matvec(kernel_hat, alpha_inv, shape, occupied):
@@ -150,9 +154,8 @@ def make_matvec(kernel_hat, alpha_inv, shape, occupied):
     occ = jnp.asarray(occupied)
 
     def matvec(p):
-        grid = jnp.zeros((size, 3), dtype=complex).at[occ].set(p, unique_indices=True)
-        grid = grid.reshape(tuple(shape) + (3,))
-        field = convolve(kernel_hat, grid).reshape(size, 3)[occ]
-        return alpha_inv[:, None] * p + field
+        grid = jnp.zeros((3, size), dtype=complex).at[:, occ].set(p.T, unique_indices=True)
+        field = convolve(kernel_hat, grid.reshape((3,) + tuple(shape))).reshape(3, size)[:, occ]
+        return alpha_inv[:, None] * p + field.T
 
     return matvec
