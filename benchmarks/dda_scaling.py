@@ -5,9 +5,12 @@ layout) is discretised at spacings giving about 1k to 20k+ dipoles. Each size ru
 subprocess so that its peak resident memory (``resource.getrusage``, ru_maxrss) is its own. Prints per
 size: dipoles, grid and FFT sizes, time per wavelength (mean over the wavelengths after the first, which
 includes compilation), time of the Green's-tensor tabulation alone, products with the DDA matrix per
-solve, peak memory; then the fitted exponents of time and memory against the dipole count.
+solve, peak memory; then the fitted exponents of time and memory against the dipole count. With several
+``--preconditioners`` (``invdesign._dda_precond``; the first is the reference) every size is run with
+each, side by side in one run, and the ratios of time and products to the reference are printed.
 
     python benchmarks/dda_scaling.py [--spacings 8 6 4.5 3.5 2.9] [--wavelengths 900 1000 1100]
+                                     [--preconditioners jacobi two-level] [--segment-nm 20]
 """
 
 import argparse
@@ -33,7 +36,7 @@ CELL = {
 }
 
 
-def one_size(spacing: float, wavelengths) -> dict:
+def one_size(spacing: float, wavelengths, preconditioner: str, segment_nm: float) -> dict:
     import jax
 
     from invdesign import Design
@@ -43,7 +46,8 @@ def one_size(spacing: float, wavelengths) -> dict:
     from invdesign._units import NM, k0_per_m
 
     design = Design.from_json(CELL)
-    _, info = dda_response(design, wavelengths, spacing, options=DdaOptions(tol=1e-6))
+    opts = DdaOptions(tol=1e-6, preconditioner=preconditioner, segment_nm=segment_nm)
+    _, info = dda_response(design, wavelengths, spacing, options=opts, strict=False)
     setup = dda_setup(design, wavelengths, spacing)
     g = setup.grid
     k = k0_per_m(wavelengths[0]) * setup.problem.medium_index
@@ -58,42 +62,61 @@ def one_size(spacing: float, wavelengths) -> dict:
             "fft": list(info.fft_shape), "first_s": float(info.seconds[0]),
             "per_wl_s": float(np.mean(info.seconds[1:])), "kernel_s": t_kernel,
             "products": float(np.mean(info.iterations[1:])), "mkd": float(np.max(info.mkd_max)),
+            "converged": bool(info.converged),
             "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0}
+
+
+def _fit(rows, key):
+    n = np.array([r["dipoles"] for r in rows], float)
+    return np.polyfit(np.log(n), np.log([r[key] for r in rows]), 1)[0]
+
+
+def _report(name, rows):
+    n = np.array([r["dipoles"] for r in rows], float)
+    if len(n) < 2:
+        return
+    for key, label in (("per_wl_s", "time per wavelength"), ("kernel_s", "kernel tabulation"),
+                       ("products", "products per solve")):
+        print(f"[{name}] fitted exponent, {label} ∝ N^{_fit(rows, key):.2f}")
+    extra = np.array([r["peak_mb"] - rows[0]["peak_mb"] for r in rows[1:]])
+    if len(extra) >= 2 and np.all(extra > 0):
+        slope = np.polyfit(np.log(n[1:]), np.log(extra), 1)[0]
+        print(f"[{name}] fitted exponent, peak memory above the smallest run ∝ N^{slope:.2f}")
 
 
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--spacings", type=float, nargs="+", default=[8.0, 6.0, 4.5, 3.5, 2.9])
     ap.add_argument("--wavelengths", type=float, nargs="+", default=[900.0, 1000.0, 1100.0])
+    ap.add_argument("--preconditioners", nargs="+", default=["jacobi", "two-level"])
+    ap.add_argument("--segment-nm", type=float, default=20.0)
     ap.add_argument("--one", type=float, help=argparse.SUPPRESS)
     args = ap.parse_args()
     if len(args.wavelengths) < 2:
         ap.error("give at least two wavelengths (the first includes compilation)")
     if args.one is not None:
-        print(json.dumps(one_size(args.one, np.array(args.wavelengths))))
+        row = one_size(args.one, np.array(args.wavelengths), args.preconditioners[0], args.segment_nm)
+        print(json.dumps(row))
         return
-    rows = []
-    print(f"{'d nm':>6} {'dipoles':>8} {'grid':>13} {'FFT':>13} {'s/wl':>7} {'kernel s':>8} "
-          f"{'products':>8} {'|m|kd':>6} {'peak MB':>8}")
+    rows = {p: [] for p in args.preconditioners}
+    ref = args.preconditioners[0]
+    print(f"{'precond':>9} {'d nm':>6} {'dipoles':>8} {'grid':>13} {'FFT':>13} {'s/wl':>7} {'kernel s':>8} "
+          f"{'products':>8} {'conv':>5} {'|m|kd':>6} {'peak MB':>8} {'t/t_ref':>7} {'prod/ref':>8}")
     for d in args.spacings:
-        cmd = [sys.executable, __file__, "--one", str(d), "--wavelengths", *map(str, args.wavelengths)]
-        out = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout.strip().splitlines()[-1]
-        r = json.loads(out)
-        rows.append(r)
-        print(f"{r['spacing_nm']:6.2f} {r['dipoles']:8d} {'x'.join(map(str, r['grid'])):>13} "
-              f"{'x'.join(map(str, r['fft'])):>13} {r['per_wl_s']:7.2f} {r['kernel_s']:8.2f} "
-              f"{r['products']:8.0f} {r['mkd']:6.3f} {r['peak_mb']:8.0f}", flush=True)
-    n = np.array([r["dipoles"] for r in rows], float)
-    if len(n) >= 2:
-        for key, label in (("per_wl_s", "time per wavelength"), ("kernel_s", "kernel tabulation"),
-                           ("products", "products per solve")):
-            slope = np.polyfit(np.log(n), np.log([r[key] for r in rows]), 1)[0]
-            print(f"fitted exponent, {label} ∝ N^{slope:.2f}")
-        base = rows[0]["peak_mb"]
-        extra = np.array([r["peak_mb"] - base for r in rows[1:]])
-        if len(extra) >= 2 and np.all(extra > 0):
-            slope = np.polyfit(np.log(n[1:]), np.log(extra), 1)[0]
-            print(f"fitted exponent, peak memory above the smallest run ∝ N^{slope:.2f}")
+        for pc in args.preconditioners:
+            cmd = [sys.executable, __file__, "--one", str(d), "--wavelengths", *map(str, args.wavelengths),
+                   "--preconditioners", pc, "--segment-nm", str(args.segment_nm)]
+            out = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
+            r = json.loads(out.strip().splitlines()[-1])
+            rows[pc].append(r)
+            base = rows[ref][-1]
+            print(f"{pc:>9} {r['spacing_nm']:6.2f} {r['dipoles']:8d} {'x'.join(map(str, r['grid'])):>13} "
+                  f"{'x'.join(map(str, r['fft'])):>13} {r['per_wl_s']:7.2f} {r['kernel_s']:8.2f} "
+                  f"{r['products']:8.0f} {'yes' if r['converged'] else 'NO':>5} {r['mkd']:6.3f} "
+                  f"{r['peak_mb']:8.0f} {r['per_wl_s'] / base['per_wl_s']:7.2f} "
+                  f"{r['products'] / base['products']:8.2f}", flush=True)
+    for pc in args.preconditioners:
+        _report(pc, rows[pc])
 
 
 if __name__ == "__main__":
