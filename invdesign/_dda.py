@@ -21,8 +21,9 @@ d and is small for |m| k d ≲ 1 (``DdaInfo.mkd_max``) and a fine enough stairca
 
 Absorption: A = −(k/(A_cell cos θ)) Σ_i Im(Λ_i) |p̃_i|² with Λ = α⁻¹ + i k³/(6π), the dipoles' work minus their
 own radiation — consistent with the LDR, whose radiative part is exactly −i k³/(6π), so R + T + A = 1
-holds to the solver tolerance. Block-Jacobi preconditioning: each dipole's own 3 × 3 block
-α_i⁻¹ I − k² G_L,self.
+holds to the solver tolerance. Block-Jacobi preconditioning by default: each dipole's own 3 × 3 block
+α_i⁻¹ I − k² G_L,self (two-level and near-field-block alternatives, measured slower for gold in the near
+infrared, in ``invdesign._dda_precond``). Derivatives never pass through the preconditioner.
 
 Volume (``DdaOptions.volume``): "grid" gives every dipole the cell volume d³ (the discretised element
 has volume N_e d³, reported as ``DdaInfo.volume_ratio``); "exact" gives element e's dipoles the volume
