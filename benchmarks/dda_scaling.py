@@ -8,9 +8,12 @@ includes compilation), time of the Green's-tensor tabulation alone, products wit
 solve, peak memory; then the fitted exponents of time and memory against the dipole count. With several
 ``--preconditioners`` (``invdesign._dda_precond``; the first is the reference) every size is run with
 each, side by side in one run, and the ratios of time and products to the reference are printed.
+``--warm-start 0 2`` likewise runs every size cold (0) and warm-started from the last 2 wavelengths'
+solutions (``DdaOptions.warm_start``), side by side; the first value is the reference.
 
     python benchmarks/dda_scaling.py [--spacings 8 6 4.5 3.5 2.9] [--wavelengths 900 1000 1100]
                                      [--preconditioners jacobi two-level] [--segment-nm 20]
+                                     [--warm-start 0 2]
 """
 
 import argparse
@@ -21,6 +24,8 @@ import sys
 import time
 
 import numpy as np
+
+from invdesign._dda import DdaOptions
 
 CELL = {
     "name": "benchmark-two-rods",
@@ -36,7 +41,7 @@ CELL = {
 }
 
 
-def one_size(spacing: float, wavelengths, preconditioner: str, segment_nm: float) -> dict:
+def one_size(spacing: float, wavelengths, preconditioner: str, segment_nm: float, warm: int) -> dict:
     import jax
 
     from invdesign import Design
@@ -46,7 +51,7 @@ def one_size(spacing: float, wavelengths, preconditioner: str, segment_nm: float
     from invdesign._units import NM, k0_per_m
 
     design = Design.from_json(CELL)
-    opts = DdaOptions(tol=1e-6, preconditioner=preconditioner, segment_nm=segment_nm)
+    opts = DdaOptions(tol=1e-6, preconditioner=preconditioner, segment_nm=segment_nm, warm_start=warm)
     _, info = dda_response(design, wavelengths, spacing, options=opts, strict=False)
     setup = dda_setup(design, wavelengths, spacing)
     g = setup.grid
@@ -90,33 +95,40 @@ def main():
     ap.add_argument("--wavelengths", type=float, nargs="+", default=[900.0, 1000.0, 1100.0])
     ap.add_argument("--preconditioners", nargs="+", default=["jacobi", "two-level"])
     ap.add_argument("--segment-nm", type=float, default=20.0)
+    ap.add_argument("--warm-start", type=int, nargs="+", default=[DdaOptions().warm_start])
     ap.add_argument("--one", type=float, help=argparse.SUPPRESS)
     args = ap.parse_args()
+    if any(w < 0 for w in args.warm_start):
+        ap.error("--warm-start values are counts of earlier solutions, 0 or more")
     if len(args.wavelengths) < 2:
         ap.error("give at least two wavelengths (the first includes compilation)")
     if args.one is not None:
-        row = one_size(args.one, np.array(args.wavelengths), args.preconditioners[0], args.segment_nm)
+        row = one_size(args.one, np.array(args.wavelengths), args.preconditioners[0], args.segment_nm,
+                       args.warm_start[0])
         print(json.dumps(row))
         return
-    rows = {p: [] for p in args.preconditioners}
-    ref = args.preconditioners[0]
-    print(f"{'precond':>9} {'d nm':>6} {'dipoles':>8} {'grid':>13} {'FFT':>13} {'s/wl':>7} {'kernel s':>8} "
-          f"{'products':>8} {'conv':>5} {'|m|kd':>6} {'peak MB':>8} {'t/t_ref':>7} {'prod/ref':>8}")
+    variants = [(p, w) for p in args.preconditioners for w in args.warm_start]
+    rows = {v: [] for v in variants}
+    ref = variants[0]
+    print(f"{'precond':>9} {'warm':>4} {'d nm':>6} {'dipoles':>8} {'grid':>13} {'FFT':>13} {'s/wl':>7} "
+          f"{'kernel s':>8} {'products':>8} {'conv':>5} {'|m|kd':>6} {'peak MB':>8} {'t/t_ref':>7} "
+          f"{'prod/ref':>8}")
     for d in args.spacings:
-        for pc in args.preconditioners:
+        for pc, warm in variants:
             cmd = [sys.executable, __file__, "--one", str(d), "--wavelengths", *map(str, args.wavelengths),
-                   "--preconditioners", pc, "--segment-nm", str(args.segment_nm)]
+                   "--preconditioners", pc, "--segment-nm", str(args.segment_nm), "--warm-start", str(warm)]
             out = subprocess.run(cmd, check=True, capture_output=True, text=True).stdout
             r = json.loads(out.strip().splitlines()[-1])
-            rows[pc].append(r)
+            rows[(pc, warm)].append(r)
             base = rows[ref][-1]
-            print(f"{pc:>9} {r['spacing_nm']:6.2f} {r['dipoles']:8d} {'x'.join(map(str, r['grid'])):>13} "
-                  f"{'x'.join(map(str, r['fft'])):>13} {r['per_wl_s']:7.2f} {r['kernel_s']:8.2f} "
+            print(f"{pc:>9} {warm:4d} {r['spacing_nm']:6.2f} {r['dipoles']:8d} "
+                  f"{'x'.join(map(str, r['grid'])):>13} {'x'.join(map(str, r['fft'])):>13} "
+                  f"{r['per_wl_s']:7.2f} {r['kernel_s']:8.2f} "
                   f"{r['products']:8.0f} {'yes' if r['converged'] else 'NO':>5} {r['mkd']:6.3f} "
                   f"{r['peak_mb']:8.0f} {r['per_wl_s'] / base['per_wl_s']:7.2f} "
                   f"{r['products'] / base['products']:8.2f}", flush=True)
-    for pc in args.preconditioners:
-        _report(pc, rows[pc])
+    for pc, warm in variants:
+        _report(f"{pc}, warm {warm}", rows[(pc, warm)])
 
 
 if __name__ == "__main__":

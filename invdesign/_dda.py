@@ -101,6 +101,11 @@ class DdaOptions:
         or "local" (exact inverse of each segment's near-field block); ``invdesign._dda_precond``. For gold
         in the near infrared the alternatives measured more products than block Jacobi (see there).
       segment_nm: side of the element segments (coarse space, local blocks), nm.
+      warm_start: how many earlier wavelengths' solutions (same polarisation) each solve starts from,
+        0 for a cold start from zero. The wavelengths are solved in increasing order and each solve
+        begins at the least-residual combination of the last ``warm_start`` solutions
+        (``invdesign._dda_krylov.least_residual_start``, that many extra products); the result is the
+        same to the solver tolerance, only the number of products changes.
     """
 
     polarizability: str = "ldr"
@@ -113,6 +118,7 @@ class DdaOptions:
     max_points: int = 4_000_000
     preconditioner: str = "jacobi"
     segment_nm: float = 20.0
+    warm_start: int = 2
 
     def __post_init__(self):
         if self.preconditioner not in PRECONDITIONERS:
@@ -131,6 +137,9 @@ class DdaOptions:
             raise InvdesignError(f"volume must be one of {', '.join(VOLUMES)}, got {self.volume!r}")
         if not (isinstance(self.tol, float) and 0 < self.tol < 1):
             raise InvdesignError(f"tol must be a float between 0 and 1 (e.g. 1e-6), got {self.tol!r}")
+        if isinstance(self.warm_start, bool) or not isinstance(self.warm_start, int) or self.warm_start < 0:
+            raise InvdesignError(f"warm_start must be a whole number of earlier solutions (0 for a cold "
+                                 f"start, e.g. 2), got {self.warm_start!r}")
         for name in ("restart", "max_iterations", "chunk", "max_points"):
             v = getattr(self, name)
             if isinstance(v, bool) or not isinstance(v, int) or v < 1:
@@ -148,7 +157,8 @@ class DdaInfo(NamedTuple):
       iterations: (n_wl, 2) products with the DDA matrix per solve.
       residual: (n_wl, 2) relative true residuals ‖b − A p̃‖/‖b‖.
       converged: bool, every solve reached ``tol``.
-      seconds: (n_wl,) wall time per wavelength (the first includes compilation).
+      seconds: (n_wl,) wall time per wavelength (the first solved, the shortest wavelength, includes
+        compilation).
     """
 
     n_dipoles: int
@@ -237,9 +247,11 @@ def _precond_kind(options, method) -> str:
     return options.preconditioner
 
 
-def _solve_polarisations(kernel_hat, grid, coarse, alpha_inv, rhs, g_self, k, options, method):
+def _solve_polarisations(kernel_hat, grid, coarse, alpha_inv, rhs, g_self, k, options, method, guess=None):
     """Krylov solve for each input polarisation; alpha_inv (n_in, n_d), rhs (n_in, n_d, 3) -> p̃
-    (n_in, n_d, 3) and ``SolveStats`` with (n_in,) fields. ``coarse``: ``CoarseSpace`` (static)."""
+    (n_in, n_d, 3) and ``SolveStats`` with (n_in,) fields. ``coarse``: ``CoarseSpace`` (static).
+    ``guess``: None (cold start) or (n_in, m, n_d, 3) earlier solutions per polarisation to start from
+    (``invdesign._dda_krylov.least_residual_start``; zeros are a cold start), SI units of p̃."""
     n_d = rhs.shape[1]
     blocks = alpha_inv[:, :, None, None] * jnp.eye(3) - k**2 * g_self  # (2, n_d, 3, 3)
     inv_blocks = jax.lax.stop_gradient(jnp.linalg.inv(blocks))
@@ -250,7 +262,7 @@ def _solve_polarisations(kernel_hat, grid, coarse, alpha_inv, rhs, g_self, k, op
     if kind not in ("jacobi", "local"):
         kz = coupling_on_aggregates(jax.lax.stop_gradient(kernel_hat), coarse, grid.shape, grid.occupied)
 
-    def one(a_inv, b, dinv):
+    def one(a_inv, b, dinv, g):
         mv = make_matvec(kernel_hat, a_inv, grid.shape, grid.occupied)
 
         def flat_mv(v):
@@ -282,11 +294,13 @@ def _solve_polarisations(kernel_hat, grid, coarse, alpha_inv, rhs, g_self, k, op
 
         x, stats = solve(flat_mv, b.reshape(-1), precond, method=method, tol=options.tol,
                          restart=options.restart, max_iterations=options.max_iterations,
-                         precond_transpose=precond_t)
+                         precond_transpose=precond_t, guess=None if g is None else g.reshape(g.shape[0], -1))
         return x.reshape(n_d, 3), stats
 
     # one after the other: a vmapped pair of Krylov loops measured ~1.7x slower than two in sequence
-    return jax.lax.map(lambda args: one(*args), (alpha_inv, rhs, inv_blocks))
+    if guess is None:
+        return jax.lax.map(lambda args: one(*args, None), (alpha_inv, rhs, inv_blocks))
+    return jax.lax.map(lambda args: one(*args), (alpha_inv, rhs, inv_blocks, guess))
 
 
 def _lambdas(setup, eps, k, khat, pols):
@@ -300,11 +314,13 @@ def _lambdas(setup, eps, k, khat, pols):
 def wavelength_function(setup: DdaSetup):
     """Pure, jit- and grad-compatible solve at one wavelength.
 
-    Returns ``fn(eps, wavelength_nm, a1_nm, a2_nm) -> (out, stats)`` with ``eps`` (n_mat,) complex
-    permittivities in the order of ``setup.materials``, the wavelength a scalar (nm), lattice vectors
-    (2,) nm; ``out`` = (t (2, 2), r (2, 2), t_pow (2, n_o), r_pow (2, n_o), absorbance (2,),
-    propagating (n_o,), t_amp (n_o, 3, 2), r_amp (n_o, 3, 2)) as in the fast model, ``stats`` a
-    ``SolveStats`` with (2,) fields.
+    Returns ``fn(eps, wavelength_nm, a1_nm, a2_nm, guess=None) -> (out, stats)`` with ``eps`` (n_mat,)
+    complex permittivities in the order of ``setup.materials``, the wavelength a scalar (nm), lattice
+    vectors (2,) nm, ``guess`` None (cold start) or (2, m, n_d, 3) earlier dipole moments p̃ per input
+    polarisation to start the Krylov solves from (warm start; it changes the products, not the result or
+    its derivatives); ``out`` = (t (2, 2), r (2, 2), t_pow (2, n_o), r_pow (2, n_o), absorbance (2,),
+    propagating (n_o,), t_amp (n_o, 3, 2), r_amp (n_o, 3, 2), p̃ (2, n_d, 3)) as in the fast model plus
+    the solved dipole moments (SI), ``stats`` a ``SolveStats`` with (2,) fields.
     """
     problem, grid = setup.problem, setup.grid
     shape = grid.shape
@@ -315,7 +331,7 @@ def wavelength_function(setup: DdaSetup):
     normal = problem.incidence.polar_deg == 0.0
     method = _method(setup.options, symmetric=normal)
 
-    def fn(eps, wavelength_nm, a1_nm, a2_nm):
+    def fn(eps, wavelength_nm, a1_nm, a2_nm, guess=None):
         k = k0_per_m(wavelength_nm) * problem.medium_index
         lattice = Lattice.from_nm(a1_nm, a2_nm)
         kvec = k * jnp.asarray(khat)
@@ -328,7 +344,7 @@ def wavelength_function(setup: DdaSetup):
         pols_c = jnp.asarray(pols).astype(complex)
         rhs = plane_wave_at(positions, kvec, pols_c)
         p, stats = _solve_polarisations(kernel_hat, grid, setup.coarse, alpha_inv, rhs, g_self, k,
-                                        setup.options, method)
+                                        setup.options, method, guess)
         trans, refl, kz, prop = order_amplitudes(p, positions, k, kpar, lattice, orders)
         kz_in = k * cos_in
         t_pow = jnp.sum(jnp.abs(trans) ** 2, axis=-1) * kz[None] / kz_in
@@ -339,7 +355,7 @@ def wavelength_function(setup: DdaSetup):
         # the dipoles' work over the incident flux through one cell, A cos θ
         absorb = -(k / (lattice.area() * cos_in)) * jnp.sum(jnp.imag(lam)[:, :, None] * jnp.abs(p) ** 2,
                                                            axis=(1, 2))
-        out = (t0, r0, t_pow, r_pow, absorb, prop, trans.transpose(1, 2, 0), refl.transpose(1, 2, 0))
+        out = (t0, r0, t_pow, r_pow, absorb, prop, trans.transpose(1, 2, 0), refl.transpose(1, 2, 0), p)
         return out, stats
 
     return fn
@@ -362,6 +378,26 @@ def _check(stats_list, wl, strict, tol):
                 "loosen tol, or pass strict=False to get the flagged result")
 
 
+class WarmStart:
+    """The last ``m`` solutions p̃ (each of ``shape``, e.g. (2, n_d, 3)), as the guess of the next solve.
+
+    ``guess()`` is None for m = 0 (cold start; a separate compiled function) and otherwise a fixed-shape
+    (shape[0], m, *shape[1:]) stack, zeros where no solution exists yet, so one compiled function serves
+    every wavelength.
+    """
+
+    def __init__(self, m: int, shape: tuple):
+        self.m = m
+        self.stack = np.zeros((shape[0], m, *shape[1:]), dtype=complex)
+
+    def guess(self):
+        return None if self.m == 0 else jnp.asarray(self.stack)
+
+    def push(self, p):
+        if self.m:
+            self.stack = np.concatenate([np.asarray(p)[:, None], self.stack[:, :-1]], axis=1)
+
+
 def dda_response(design, wavelengths_nm, spacing_nm, *, incidence: Incidence = NORMAL_INCIDENCE,
                  options: DdaOptions = DdaOptions(), strict: bool = True):
     """Spectra of a periodic cell by the volume discrete dipole approximation.
@@ -382,15 +418,18 @@ def dda_response(design, wavelengths_nm, spacing_nm, *, incidence: Incidence = N
     fn = jax.jit(wavelength_function(setup))
     eps = np.stack([problem.eps[n] for n in setup.materials])  # (n_mat, n_wl)
     a1, a2 = (jnp.asarray(v, dtype=float) for v in (design.params.a1, design.params.a2))
-    outs, stats, seconds = [], [], []
-    for i, lam in enumerate(wl):
+    outs, stats, seconds = [None] * len(wl), [None] * len(wl), [None] * len(wl)
+    history = WarmStart(options.warm_start, (2, int(setup.grid.counts.sum()), 3))
+    for i in np.argsort(wl, kind="stable"):  # increasing wavelength: neighbours make the warm starts
+        lam = wl[i]
         start = time.perf_counter()
-        out, st = jax.block_until_ready(fn(jnp.asarray(eps[:, i]), jnp.float64(lam), a1, a2))
-        seconds.append(time.perf_counter() - start)
+        out, st = jax.block_until_ready(fn(jnp.asarray(eps[:, i]), jnp.float64(lam), a1, a2, history.guess()))
+        seconds[i] = time.perf_counter() - start
         st = jax.tree_util.tree_map(np.asarray, st)
         _check([st], [lam], strict, options.tol)
-        outs.append([np.asarray(o) for o in out])
-        stats.append(st)
+        history.push(out[-1])
+        outs[i] = [np.asarray(o) for o in out[:-1]]
+        stats[i] = st
     t0, r0, t_pow, r_pow, absorb, prop, t_amp, r_amp = (np.stack(x) for x in zip(*outs, strict=True))
     response = Response(
         wavelengths_nm=wl, t=t0, r=r0, transmittance=t_pow.sum(axis=2), reflectance=r_pow.sum(axis=2),
@@ -443,7 +482,7 @@ def dda_cross_sections(element, eps, wavelengths_nm, medium_index, spacing_nm, *
     coarse = _coarse(grid, [element], options)
 
     @jax.jit
-    def one(eps1, lam_nm):
+    def one(eps1, lam_nm, guess):
         k = k0_per_m(lam_nm) * medium_index
         s = ldr_s(jnp.asarray(khat), jnp.asarray(pols))
         lam = dipole_lambda(eps1, eps_m, vol[None], k, s[:, None], kind=options.polarizability)
@@ -451,22 +490,24 @@ def dda_cross_sections(element, eps, wavelengths_nm, medium_index, spacing_nm, *
         kernel_hat = free_kernel(grid.shape, d_m, k, chunk=options.chunk)
         rhs = plane_wave_at(positions, k * jnp.asarray(khat), jnp.asarray(pols).astype(complex))
         p, stats = _solve_polarisations(kernel_hat, grid, coarse, alpha_inv, rhs, jnp.zeros((3, 3)), k,
-                                        options, method)
+                                        options, method, guess)
         ext = k * jnp.imag(jnp.sum(jnp.conj(rhs) * p, axis=(1, 2)))
         absorbed = -k * jnp.sum(jnp.imag(lam)[:, :, None] * jnp.abs(p) ** 2, axis=(1, 2))
-        return ext[0], absorbed[0], stats
+        return ext[0], absorbed[0], stats, p
 
-    ext, absorbed, stats, seconds = [], [], [], []
-    for e1, lam in zip(eps, wl, strict=True):
+    ext, absorbed = np.zeros(len(wl)), np.zeros(len(wl))
+    stats, seconds = [None] * len(wl), [None] * len(wl)
+    history = WarmStart(options.warm_start, (1, int(grid.counts.sum()), 3))
+    for i in np.argsort(wl, kind="stable"):
+        lam = wl[i]
         start = time.perf_counter()
-        x, a, st = jax.block_until_ready(one(jnp.asarray(e1), jnp.float64(lam)))
-        seconds.append(time.perf_counter() - start)
+        x, a, st, p = jax.block_until_ready(one(jnp.asarray(eps[i]), jnp.float64(lam), history.guess()))
+        seconds[i] = time.perf_counter() - start
         st = jax.tree_util.tree_map(np.asarray, st)
         _check([st], [lam], True, options.tol)
-        ext.append(float(x) / NM**2)
-        absorbed.append(float(a) / NM**2)
-        stats.append(st)
-    ext, absorbed = np.array(ext), np.array(absorbed)
+        history.push(p)
+        ext[i], absorbed[i] = float(x) / NM**2, float(a) / NM**2
+        stats[i] = st
     m = np.abs(np.sqrt(eps / eps_m))
     info = DdaInfo(int(grid.counts.sum()), grid.spacing_nm, grid.shape, fft_shape(grid.shape), grid.counts,
                    grid.volume_ratio, m * 2 * math.pi * medium_index / (wl * NM) * d_m,

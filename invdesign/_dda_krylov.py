@@ -17,6 +17,13 @@ iteration, constant memory. The DDA matrix is complex symmetric by reciprocity f
 and for a lattice at normal incidence (k∥ = 0); not for oblique incidence.
 All three stop on the true residual ‖b − A x‖ ≤ tol ‖b‖ (recomputed, not the recurrence's estimate).
 
+Initial guess (warm start): ``solve(..., guess=V)`` with V (m, n) a few earlier solutions (e.g. the same
+polarisation at the previous wavelengths) starts from x₀ = V c, the combination with the least residual,
+c = argmin ‖b − (A V) c‖ (m products; a small least-squares problem; c = 0 when V is zero, so a zero
+guess is the cold start). The guess changes where the iteration starts, not the system solved: the
+solution still meets ‖b − A x‖ ≤ tol ‖b‖, and derivatives are those of A⁻¹ b (the guess enters through
+``stop_gradient``; the adjoint solve starts from zero).
+
 ``solve`` wraps this in ``jax.lax.custom_linear_solve``: derivatives are those of the exact solution
 (implicit differentiation; the adjoint solve is GMRES on the transposed operator), never unrolled
 through the iterations. Non-convergence is reported (``converged`` False), not raised, so it works
@@ -94,7 +101,14 @@ def _cycle(matvec, precond, b, x, tol_abs, restart):
     return x + precond(basis[:restart].T @ y), steps
 
 
-def gmres(matvec, b, precond, *, tol, restart, max_iterations):
+def _start(b, x0, r0):
+    """Start (x₀, r₀ = b − A x₀): zero and b unless a guess and its residual are given."""
+    if x0 is None:
+        return jnp.zeros_like(b), b
+    return x0, r0
+
+
+def gmres(matvec, b, precond, *, tol, restart, max_iterations, x0=None, r0=None):
     """Solve A x = b by restarted, right-preconditioned GMRES.
 
     Args:
@@ -102,6 +116,7 @@ def gmres(matvec, b, precond, *, tol, restart, max_iterations):
       b: (n,) complex right-hand side.
       tol: target relative residual ‖b − A x‖/‖b‖ (static float). restart: Krylov dimension per cycle.
       max_iterations: stop after this many Arnoldi steps in total (rounded up to whole cycles).
+      x0, r0: optional start (n,) and its residual b − A x0 (n,); default zero and b.
 
     Returns:
       (x (n,), ``SolveStats``).
@@ -119,8 +134,8 @@ def gmres(matvec, b, precond, *, tol, restart, max_iterations):
         x, steps = _cycle(matvec, precond, b, x, tol_abs, restart)
         return x, its + steps + 2, jnp.linalg.norm(b - matvec(x)), cycles + 1
 
-    x0 = jnp.zeros_like(b)
-    x, its, res, _ = jax.lax.while_loop(cond, body, (x0, 0, bnorm, 0))
+    x0, r0 = _start(b, x0, r0)
+    x, its, res, _ = jax.lax.while_loop(cond, body, (x0, 0, jnp.linalg.norm(r0), 0))
     rel = res / jnp.where(bnorm > 0, bnorm, 1.0)
     return x, SolveStats(its, rel, rel <= tol)
 
@@ -131,10 +146,10 @@ def _true_stats(matvec, b, x, its, tol):
     return SolveStats(its + 1, rel, rel <= tol)
 
 
-def bicgstab(matvec, b, precond, *, tol, max_iterations, **_):
+def bicgstab(matvec, b, precond, *, tol, max_iterations, x0=None, r0=None, **_):
     """Right-preconditioned BiCGSTAB; same interface and return as ``gmres``."""
     tol_abs = tol * jnp.linalg.norm(b)
-    r0 = b
+    x0, r0 = _start(b, x0, r0)
     one = jnp.ones((), dtype=b.dtype)
     zero = jnp.zeros_like(b)
 
@@ -156,15 +171,16 @@ def bicgstab(matvec, b, precond, *, tol, max_iterations, **_):
         omega = jnp.vdot(t, s) / jnp.vdot(t, t)
         return x + alpha * y + omega * z, s - omega * t, p, v, rho_new, alpha, omega, its + 2
 
-    x, *_, its = jax.lax.while_loop(cond, body, (zero, r0, zero, zero, one, one, one, 0))
+    x, *_, its = jax.lax.while_loop(cond, body, (x0, r0, zero, zero, one, one, one, 0))
     return x, _true_stats(matvec, b, x, its, tol)
 
 
-def cocg(matvec, b, precond, *, tol, max_iterations, **_):
+def cocg(matvec, b, precond, *, tol, max_iterations, x0=None, r0=None, **_):
     """Preconditioned COCG for complex symmetric A and M; same interface and return as ``gmres``."""
     tol_abs = tol * jnp.linalg.norm(b)
-    z = precond(b)
-    rho = jnp.sum(b * z)
+    x0, r0 = _start(b, x0, r0)
+    z = precond(r0)
+    rho = jnp.sum(r0 * z)
 
     def cond(state):
         _, r, *_, its = state
@@ -180,26 +196,45 @@ def cocg(matvec, b, precond, *, tol, max_iterations, **_):
         rho_new = jnp.sum(r * z)
         return x, r, z + (rho_new / rho) * p, rho_new, its + 1
 
-    x, *_, its = jax.lax.while_loop(cond, body, (jnp.zeros_like(b), b, z, rho, 0))
+    x, *_, its = jax.lax.while_loop(cond, body, (x0, r0, z, rho, 0))
     return x, _true_stats(matvec, b, x, its, tol)
 
 
 METHODS = {"gmres": gmres, "bicgstab": bicgstab, "cocg": cocg}
 
 
+def least_residual_start(matvec, b, basis):
+    """The start x₀ = Vᵀc in the span of ``basis`` V (m, n) with the least ‖b − A x₀‖, and its residual.
+
+    Returns (x₀ (n,), r₀ = b − A x₀ (n,)); m products with A. A zero (or rank-deficient) basis gives the
+    least-norm c (SVD least squares), so a zero basis returns x₀ = 0, r₀ = b.
+    """
+    av = jax.vmap(matvec)(basis)  # (m, n)
+    c, *_ = jnp.linalg.lstsq(av.T, b)
+    return basis.T @ c, b - av.T @ c
+
+
 def solve(matvec, b, precond, *, method="gmres", tol=1e-6, restart=40, max_iterations=2000,
-          precond_transpose=None):
+          precond_transpose=None, guess=None):
     """x = A⁻¹ b with implicit derivatives (``jax.lax.custom_linear_solve``) and ``SolveStats``.
 
     ``method``: "gmres", "bicgstab" or "cocg" (static; "cocg" only for complex symmetric A, which
     then also serves as its own transpose). ``precond_transpose`` (default: ``precond``, right for a
-    symmetric preconditioner) is used for the adjoint solve with Aᵀ. Shapes as ``gmres``.
+    symmetric preconditioner) is used for the adjoint solve with Aᵀ. ``guess``: None (start from zero)
+    or (m, n) earlier solutions to start from (``least_residual_start``; its m products are counted in
+    ``SolveStats.iterations``); it never changes the solution or its derivatives. Shapes as ``gmres``.
     """
     pt = precond if precond_transpose is None else precond_transpose
     method_fn = METHODS[method]
+    basis = None if guess is None else jax.lax.stop_gradient(guess)
 
     def forward(mv, rhs):
-        return method_fn(mv, rhs, precond, tol=tol, restart=restart, max_iterations=max_iterations)
+        if basis is None:
+            return method_fn(mv, rhs, precond, tol=tol, restart=restart, max_iterations=max_iterations)
+        x0, r0 = least_residual_start(mv, rhs, basis)
+        x, stats = method_fn(mv, rhs, precond, tol=tol, restart=restart, max_iterations=max_iterations,
+                             x0=x0, r0=r0)
+        return x, stats._replace(iterations=stats.iterations + basis.shape[0])
 
     def adjoint(vm, rhs):
         return method_fn(vm, rhs, pt, tol=tol, restart=restart, max_iterations=max_iterations)
