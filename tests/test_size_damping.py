@@ -223,9 +223,11 @@ def test_errors_name_the_key():
         simulate(d, [700.0], model=ModelOptions(size_damping=True))
 
 
-def test_commands_without_size_damping_refuse_it_instead_of_ignoring_it():
-    """optimize / tradeoff / tolerance rebuild their models from resolution and correction only: asking
-    them for size damping must be an error naming the key, not a silent bulk-metal run."""
+def test_optimiser_runs_carry_size_damping_instead_of_ignoring_it():
+    """optimize / tradeoff build every model of the run from RunOptions: asking them for size damping must
+    reach each model (never a silent bulk-metal run), and a malformed value is an error naming the key.
+    (These commands refused the option until they carried it; the forward-model check is in
+    tests/test_optimize.py::test_size_damping_reaches_every_model_of_the_run.)"""
     from omegaconf import OmegaConf
 
     from invdesign import _optimize as opt
@@ -234,6 +236,11 @@ def test_commands_without_size_damping_refuse_it_instead_of_ignoring_it():
 
     deck = pathlib.Path(__file__).resolve().parent.parent / "conf" / "fab" / "ebl_fine.yaml"
     fab = parse_fab(OmegaConf.to_container(OmegaConf.load(deck)))
-    with pytest.raises(SpecError, match="model.size_damping"):
-        opt.parse_run_options({}, fab, {"correction": "kelly", "size_damping": True})
-    opt.parse_run_options({}, fab, {"correction": "kelly", "size_damping": False})  # off: accepted
+    on = opt.parse_run_options({}, fab, {"correction": "kelly", "size_damping": True,
+                                         "size_damping_coefficient": 0.5})
+    models = [on.model(n, c) for n, c in on.models]
+    assert len(models) > 1 and all(m.size_damping and m.size_damping_coefficient == 0.5 for m in models)
+    off = opt.parse_run_options({}, fab, {"correction": "kelly", "size_damping": False})
+    assert not any(off.model(n, c).size_damping for n, c in off.models)
+    with pytest.raises(SpecError, match="model.size_damping "):
+        opt.parse_run_options({}, fab, {"correction": "kelly", "size_damping": "yes"})
