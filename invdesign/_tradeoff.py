@@ -124,6 +124,7 @@ from ._quasi_newton import make_lbfgs
 from ._simulate import response_from_params
 from ._spec import _Reader
 from ._tradeoff_lagrange import shifted_goal_loss, update_shift
+from ._tradeoff_smooth import smooth_goal_shortfalls
 
 #: name -> (sense, unit, default scale, meaning); the scale is one unit of change before the anchors set
 #: the spans (anchor scalarisations only), in the objective's unit
@@ -137,6 +138,7 @@ OBJECTIVES = {
 }
 NEEDS_DEPTH = ("control_power_ratio", "bandwidth_nm")
 BAND_SOFTNESS = 0.05  # τ / depth of the smooth band surrogate
+SPREAD_POINTS = 32  # box-filling points scored per vertex for polish_starts = spread
 
 
 @dataclasses.dataclass(frozen=True)
@@ -173,8 +175,10 @@ class FrontOptions:
     extreme_slack: float
     extreme_method: str
     polish_steps: int
+    polish_starts: str
     lagrange_rounds: int
     lagrange_weight: float
+    band_softness: float
     warm_start: str
     jitter: float
     reference: tuple | None
@@ -196,8 +200,13 @@ _FRONT_KEYS = {
     "extreme_slack": "an extreme's own objective may worsen by this fraction of its span (0-1)",
     "extreme_method": "optimiser of the extremes phase: adam or lbfgs",
     "polish_steps": "L-BFGS steps per round of the anchors' polish (>= 0; 0 skips it)",
+    "polish_starts": "starts of a vertex's polish rows: own (its anchor rows), crossed (its best anchor, "
+                     "then the other vertices' best anchors) or spread (its best anchor, then the best "
+                     "of 32 box-filling points on its merit)",
     "lagrange_rounds": "augmented-Lagrangian rounds of every L-BFGS phase (>= 1; 1 = plain penalty)",
     "lagrange_weight": "weight of the goal penalty in the L-BFGS phases (> 0)",
+    "band_softness": "tau / depth of the soft minimum over wavelengths in the bandwidth goal's shortfall "
+                     "inside the sweep's loss (0-0.1; 0 = the exact minimum)",
     "warm_start": "continuation starts from the nearest solved point or the best-scoring one: nearest, best",
     "jitter": "spread of extra warm starts in unconstrained units (>= 0)",
     "reference": "'auto' or a list of one reference value per objective, in the objectives' units",
@@ -259,6 +268,10 @@ def parse_front(doc, n_objectives: int) -> FrontOptions:
     if slack >= 1:
         raise SpecError(f"front.extreme_slack must be in [0, 1) (a fraction of the objective's span), "
                         f"got {slack}")
+    softness = r.number("band_softness", 0.0, minimum=0.0)
+    if softness > 0.1:
+        raise SpecError(f"front.band_softness must be in [0, 0.1] (tau as a fraction of the goal's depth; "
+                        f"0 = the exact minimum), got {softness}")
     return FrontOptions(
         divisions=int(div), steps=r.number("steps", 20, integer=True, minimum=1),
         lr_fraction=r.number("lr_fraction", 0.5, positive=True),
@@ -270,8 +283,10 @@ def parse_front(doc, n_objectives: int) -> FrontOptions:
         extreme_steps=r.number("extreme_steps", 100, integer=True, minimum=0), extreme_slack=slack,
         extreme_method=r.text("extreme_method", "adam", choices=("adam", "lbfgs")),
         polish_steps=r.number("polish_steps", 15, integer=True, minimum=0),
+        polish_starts=r.text("polish_starts", "own", choices=("own", "crossed", "spread")),
         lagrange_rounds=r.number("lagrange_rounds", 3, integer=True, minimum=1),
         lagrange_weight=r.number("lagrange_weight", 10.0, positive=True),
+        band_softness=softness,
         warm_start=r.text("warm_start", "nearest", choices=("nearest", "best")),
         jitter=r.number("jitter", 0.3, minimum=0.0), reference=ref,
         reference_offset=r.number("reference_offset", 0.1, positive=True),
@@ -409,8 +424,9 @@ def make_front_loss(ts: TradeSetup):
         g = (f - row["z"]) / row["span"]
         scal = jnp.max(row["w"] * g) + fr.augmentation * jnp.sum(g)
         if has_goals:
-            worst = opt.robust_combine(jnp.stack([opt.goal_shortfalls(r, setup) for r in resps]),
-                                       setup.opts.temperature)
+            worst = opt.robust_combine(
+                jnp.stack([smooth_goal_shortfalls(r, setup, fr.band_softness) for r in resps]),
+                setup.opts.temperature)
             shifted = shifted_goal_loss(worst, gw, setup.opts.goal_margin, row["shift"])
             plain = opt.goal_loss(worst, setup)
         else:
@@ -518,9 +534,10 @@ def _phase(ts, u0, row, steps, peak, warmup, flag, ramp=0.0, feasibility=False):
 def _lbfgs_phase(ts, u0, row, steps, rounds, flag):
     """L-BFGS on one batch in ``rounds`` augmented-Lagrangian rounds of ``steps`` steps, the goals' shifts
     updated between rounds (``_tradeoff_lagrange.update_shift``; rounds = 1: the penalty of ``row`` as it
-    is). Returns (u, merit, f, shift, calls): per row the point with the lowest merit (aux ``plain``)
-    among the start and every round's end, that merit and its oriented objectives, the final shifts
-    (rows, n_goals), and the value-and-gradient calls made (each one per row; the L-BFGS state's count).
+    is). Returns (u, merit, f, shift, calls, start): per row the point with the lowest merit (aux
+    ``plain``) among the start and every round's end, that merit and its oriented objectives, the final
+    shifts (rows, n_goals), the value-and-gradient calls made (each one per row; the L-BFGS state's count)
+    and the start's merit (rows,) (from the first round's initial call, so no extra call).
     """
     c = compiled_front(ts)
     init, step = c["lbfgs"]
@@ -542,6 +559,7 @@ def _lbfgs_phase(ts, u0, row, steps, rounds, flag):
         state = init(u)
         if r == 0:
             keep(u, state[3])
+            start = np.asarray(state[3]["plain"], float).copy()
         for _ in range(steps):
             u, state, _, _ = step(u, state)
             _interrupt(flag)
@@ -549,7 +567,7 @@ def _lbfgs_phase(ts, u0, row, steps, rounds, flag):
         keep(u, state[3])
         if r < rounds - 1 and ts.base.spec.goals:
             shift = update_shift(shift, np.asarray(state[3]["shortfalls"]), margin)
-    return best_u, best_m, best_f, shift, calls
+    return best_u, best_m, best_f, shift, calls, start
 
 
 def _save(run_dir, ts, state):
@@ -613,7 +631,7 @@ def _extremes(ts: TradeSetup, state: dict, flag, say) -> None:
     if fr.extreme_method == "lbfgs":
         row = front_rows(ts, w, state["z"], state["span"], bound=bound, bound_on=on,
                          goal_weight=fr.lagrange_weight)
-        bu, bl, bf, _, calls = _lbfgs_phase(ts, u0, row, fr.extreme_steps, fr.lagrange_rounds, flag)
+        bu, bl, bf, _, calls, _ = _lbfgs_phase(ts, u0, row, fr.extreme_steps, fr.lagrange_rounds, flag)
     else:
         row = front_rows(ts, w, state["z"], state["span"], bound=bound, bound_on=on)
         bu, bl, bf, calls = _phase(ts, u0, row, fr.extreme_steps, opts.learning_rate * fr.lr_fraction,
@@ -636,6 +654,59 @@ def _extremes(ts: TradeSetup, state: dict, flag, say) -> None:
         f"({calls} evaluations per row), refined {sum(taken)}/{len(verts)} ({time.perf_counter() - t:.1f} s)")
 
 
+def polish_starts(state: dict, verts, starts: int, mode: str) -> np.ndarray:
+    """(m·starts, n_free) starts of the polish rows, vertex i's rows i·starts … (i+1)·starts − 1.
+    ``own``: the anchor rows' best iterates as they are (vertex i's own starts); ``crossed``: vertex i's
+    rows begin at its best anchor, then at the other vertices' best anchors, then its other anchor starts
+    (``extreme_starts``: the same number of rows, so the same calls)."""
+    rows = len(verts) * starts
+    u, loss = state["pool_u"][:rows], state["pool_loss"][:rows]
+    if mode == "own":
+        return u.copy()
+    return extreme_starts(state["u"][verts], u, loss, starts)
+
+
+def spread_points(family, count: int, seed: int) -> np.ndarray:
+    """(count, n_free) unconstrained points spread over the family's whole box: a scrambled Sobol
+    sequence (``scipy.stats.qmc.Sobol``, seeded) of box fractions, kept 10⁻³ inside the faces."""
+    from scipy.stats import qmc
+
+    frac = qmc.Sobol(len(family.names), scramble=True, seed=seed).random(count)
+    values = family.lo + (family.hi - family.lo) * np.clip(frac, 1e-3, 1 - 1e-3)
+    return np.stack([family.unconstrained(v) for v in values])
+
+
+def spread_starts(best, points, merit, starts: int) -> np.ndarray:
+    """(m·starts, n_free) polish starts of mode ``spread``: vertex i's rows begin at its best anchor
+    ``best[i]`` (m, n_free), then at the spread ``points`` (S, n_free) with the lowest merit ``merit[i]``
+    (m, S) for that vertex, best first."""
+    out = []
+    for i in range(len(best)):
+        order = np.argsort(merit[i], kind="stable")
+        out += [best[i]] + [points[j] for j in order[:starts - 1]]
+    return np.stack(out)
+
+
+def _spread_merit(ts: TradeSetup, points, scales) -> tuple:
+    """Every vertex's anchor merit at every spread point, (m, S), in batches of ``ts.rows`` (the compiled
+    batch); returns it and the value-and-gradient calls made (each row of a batch one evaluation)."""
+    c, rows, verts = compiled_front(ts), ts.rows, ts.vertices
+    S = len(points)
+    pad = np.concatenate([points, np.repeat(points[:1], (-S) % rows, axis=0)])
+    out, evaluations = np.full((len(verts), S), np.inf), 0
+    for i, v in enumerate(verts):
+        row = front_rows(ts, np.repeat(ts.weights[v][None], rows, axis=0), 0.0, scales)
+        row = {k: jnp.asarray(x) for k, x in row.items()}
+        merit = []
+        for b in range(0, len(pad), rows):
+            (_, aux), _ = c["value_grad"](jnp.asarray(pad[b:b + rows]), row)
+            merit.append(np.asarray(aux["plain"]))
+            evaluations += rows
+        m = np.concatenate(merit)[:S]
+        out[i] = np.where(np.isfinite(m), m, np.inf)
+    return out, evaluations
+
+
 def _polish(ts: TradeSetup, state: dict, flag, say) -> None:
     """The anchors' polish (module docstring, step 2): L-BFGS in augmented-Lagrangian rounds from every
     anchor row's best iterate; a vertex takes its best polished row only if its merit (the anchors' own
@@ -643,10 +714,17 @@ def _polish(ts: TradeSetup, state: dict, flag, say) -> None:
     fr, k = ts.front, ts.base.opts.starts
     verts, rows = ts.vertices, ts.rows
     t = time.perf_counter()
-    u0, start_loss = state["pool_u"][:rows], state["pool_loss"][:rows]
     scales = np.array([o.scale for o in ts.objectives])
+    spread_evals = 0
+    if fr.polish_starts == "spread":
+        pts = spread_points(ts.base.family, SPREAD_POINTS, ts.base.opts.seed)
+        merit, spread_evals = _spread_merit(ts, pts, scales)
+        u0 = spread_starts(state["u"][verts], pts, merit, k)
+    else:
+        u0 = polish_starts(state, verts, k, fr.polish_starts)
     row = front_rows(ts, np.repeat(ts.weights[verts], k, axis=0), 0.0, scales, goal_weight=fr.lagrange_weight)
-    bu, bl, bf, shift, calls = _lbfgs_phase(ts, u0, row, fr.polish_steps, fr.lagrange_rounds, flag)
+    bu, bl, bf, shift, calls, start_loss = _lbfgs_phase(ts, u0, row, fr.polish_steps, fr.lagrange_rounds,
+                                                        flag)
     taken = []
     for i, v in enumerate(verts):
         r = i * k + int(np.argmin(bl[i * k:(i + 1) * k]))
@@ -658,9 +736,10 @@ def _polish(ts: TradeSetup, state: dict, flag, say) -> None:
     state["anchor_f"] = state["f"][verts].copy()
     state["z"], state["span"] = reference_scales(state["anchor_f"], state["anchor_f"], scales,
                                                  fr.utopia_offset)
-    state["evaluations"] = state["evaluations"] + rows * calls
+    state["evaluations"] = state["evaluations"] + rows * calls + spread_evals
     state["phases"].append({"phase": "polish", "points": [int(v) for v in verts], "rows": rows,
                             "steps": fr.polish_steps, "rounds": fr.lagrange_rounds, "calls": calls,
+                            "starts": fr.polish_starts, "spread_evaluations": spread_evals,
                             "start_loss": start_loss.tolist(), "refined": taken,
                             "shift": shift.tolist(), "seconds": round(time.perf_counter() - t, 2)})
     say(f"  polish: {rows} anchor rows, {fr.lagrange_rounds} x {fr.polish_steps} L-BFGS steps ({calls} "

@@ -155,6 +155,7 @@ def test_polished_anchors_are_no_worse_than_their_starts_and_every_call_is_count
     # the evaluation count is the sum over every phase: rows x (steps of Adam, calls of L-BFGS)
     anchors = phases["anchors"]
     expect = rows * (anchors["steps"] + anchors["feasibility_steps"]) + rows * pol["calls"]
+    expect += pol["spread_evaluations"]  # the spread starts' scoring calls (0 unless polish_starts = spread)
     expect += rows * phases["extremes"]["calls"]
     expect += sum(p["rows"] * p["steps"] for p in state["phases"] if p["phase"].startswith("wave"))
     assert int(state["evaluations"]) == expect
@@ -209,6 +210,12 @@ def test_bad_objectives_are_refused_by_name():
         small(front={"lagrange_weight": 0.0})
     with pytest.raises(SpecError, match="front.polish_steps must be a whole number"):
         small(front={"polish_steps": 2.5})
+    with pytest.raises(SpecError, match=r"polish_starts = 'all' is not valid; use one of: own, crossed"):
+        small(front={"polish_starts": "all"})
+    with pytest.raises(SpecError, match=r"front.band_softness must be in \[0, 0.1\]"):
+        small(front={"band_softness": 0.5})
+    with pytest.raises(SpecError, match="front.band_softness must be at least 0"):
+        small(front={"band_softness": -0.01})
     with pytest.raises(SpecError, match="front: unknown key 'weigths'"):
         small(front={"weigths": 3})
 
@@ -219,3 +226,34 @@ def test_cli_refuses_a_bad_objective_before_work(tmp_path):
     done = subprocess.run(cmd, cwd=ROOT, capture_output=True, text=True, timeout=300)
     assert done.returncode == 2
     assert "objectives[1] = 'x'" in done.stderr and "insertion_loss_db" in done.stderr
+
+
+def test_smooth_band_shortfall_is_conservative_and_exact_elsewhere():
+    from invdesign._simulate import response_from_params
+    from invdesign._tradeoff_smooth import smooth_goal_shortfalls
+
+    # with a bandwidth goal: the smooth shortfall (D − smin_τ c)/D is at least the exact (D − min c)/D and
+    # at most τ·log n above it (log-sum-exp bounds, Boyd & Vandenberghe, Convex Optimization, §3.1.5),
+    # n the window's samples; every other goal's shortfall is the exact one, bit for bit
+    spec = parse_spec({"name": "tiny", "operating_nm": 1310.0,
+                       "band": {"start_nm": 1290.0, "stop_nm": 1330.0, "count": 5},
+                       "environment": {"superstrate_index": 1.0, "substrate_index": 1.45},
+                       "material": "gold_rakic1998",
+                       "goals": GOALS + [{"metric": "bandwidth_nm", "sense": ">=", "target": 20.0}]})
+    fab, cell = parse_fab(FAB), parse_cell(CELL)
+    opts = opt.parse_run_options({"robust": {"resolutions": [1], "corrections": ["kelly"]}}, fab,
+                                 {"correction": "kelly"})
+    setup = opt.build_setup(spec, fab, cell, opts)
+    band = [g.metric for g in spec.goals].index("bandwidth_nm")
+    n = len(np.atleast_1d(np.arange(len(setup.wavelengths))[setup.windows[band]]))
+    assert n >= 2
+    for seed in range(3):
+        u = np.random.default_rng(seed).normal(size=len(setup.family.names))
+        resp = response_from_params(setup.family.params(u), setup.problems[0])
+        exact = np.asarray(opt.goal_shortfalls(resp, setup))
+        np.testing.assert_array_equal(np.asarray(smooth_goal_shortfalls(resp, setup, 0.0)), exact)
+        for softness in (0.05, 0.01):
+            smooth = np.asarray(smooth_goal_shortfalls(resp, setup, softness))
+            others = np.arange(len(exact)) != band
+            np.testing.assert_array_equal(smooth[others], exact[others])
+            assert exact[band] <= smooth[band] <= exact[band] + softness * np.log(n) + 1e-12

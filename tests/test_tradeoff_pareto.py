@@ -180,3 +180,79 @@ def test_warm_sources_pick_the_best_scoring_solved_point_hand_derived():
     # w = (0.9, 0.1): 0.1 + 0.01 = 0.11, 0.36 + 0.0085, 0.9 + 0.01 -> point 0 (the unsolved 3 is skipped)
     np.testing.assert_array_equal(warm_sources(f, solved, np.array([[0.5, 0.5], [0.9, 0.1]]), np.zeros(2),
                                                np.ones(2), 0.01), [1, 0])
+
+
+def test_soft_minimum_is_a_lower_bound_that_tends_to_the_minimum():
+    from scipy.special import logsumexp
+
+    from invdesign._tradeoff_smooth import soft_min
+
+    # the log-sum-exp bounds (Boyd & Vandenberghe, Convex Optimization, Cambridge 2004, §3.1.5):
+    # min x − τ·log n ≤ −τ·log Σ exp(−x/τ) ≤ min x, equality on the left for n equal values; reference
+    # values from scipy.special.logsumexp (a general-purpose library, its own code path)
+    rng = np.random.default_rng(3)
+    x = rng.uniform(0.5, 1.0, size=(20, 7))
+    lo = x.min(axis=1)
+    for tau in (0.1, 0.01, 1e-3):
+        s = np.asarray(soft_min(x, tau))
+        np.testing.assert_allclose(s, -tau * logsumexp(-x / tau, axis=1), rtol=1e-13)
+        assert np.all(s <= lo) and np.all(s >= lo - tau * math.log(7) - 1e-15)
+    # τ → 0: the gap closes at least as fast as τ·log n; τ = 0 is the exact minimum
+    assert np.max(lo - np.asarray(soft_min(x, 1e-6))) <= 1e-6 * math.log(7)
+    np.testing.assert_array_equal(np.asarray(soft_min(x, 0.0)), lo)
+    # n equal values: exactly min − τ·log n (hand-derived: −τ·log(n·e^{−c/τ}) = c − τ·log n)
+    np.testing.assert_allclose(float(soft_min(np.full(4, 0.8), 0.05)), 0.8 - 0.05 * math.log(4), rtol=1e-14)
+
+
+def test_crossed_polish_starts_are_the_other_vertices_best_anchors_exactly():
+    from invdesign._tradeoff import polish_starts
+
+    # two vertices (lattice points 0 and 4) x two starts; the anchors' rows are the first four pool rows,
+    # each vertex's best anchor is also its state["u"] (row 1 for vertex 0, row 2 for vertex 1)
+    rows = np.array([[1.5, 0.1], [1.0, 0.2], [2.0, 0.3], [2.5, 0.4]])
+    state = {"pool_u": np.concatenate([rows, np.full((3, 2), 9.0)]),
+             "pool_loss": np.array([0.9, 0.1, 0.2, 0.3, 0.0, 0.0, 0.0]),
+             "u": np.array([[1.0, 0.2], [7.0, 7.0], [7.0, 7.0], [7.0, 7.0], [2.0, 0.3]])}
+    verts = np.array([0, 4])
+    own = polish_starts(state, verts, 2, "own")
+    np.testing.assert_array_equal(own, rows)
+    crossed = polish_starts(state, verts, 2, "crossed")
+    # vertex 0: its best anchor, then vertex 1's best; vertex 1: its best, then vertex 0's best
+    np.testing.assert_array_equal(crossed, [[1.0, 0.2], [2.0, 0.3], [2.0, 0.3], [1.0, 0.2]])
+
+
+def test_spread_starts_take_each_vertex_best_anchor_then_its_best_spread_points():
+    from invdesign._tradeoff import spread_starts
+
+    # two vertices, three starts each: own best anchor, then the spread points by that vertex's merit
+    # (hand-derived orders: vertex 0 ranks points 2, 0, 1; vertex 1 ranks 1, 2, 0)
+    best = np.array([[1.0], [2.0]])
+    points = np.array([[10.0], [11.0], [12.0]])
+    merit = np.array([[0.5, 0.9, 0.1], [3.0, 1.0, 2.0]])
+    np.testing.assert_array_equal(spread_starts(best, points, merit, 3)[:, 0], [1.0, 12.0, 10.0,
+                                                                                  2.0, 11.0, 12.0])
+    np.testing.assert_array_equal(spread_starts(best, points, merit, 1)[:, 0], [1.0, 2.0])
+
+
+def test_spread_points_are_the_seeded_sobol_points_inside_the_box():
+    from helpers import SMALL_CELL, SMALL_FAB
+    from scipy.stats import qmc
+
+    from invdesign._cells import make_family
+    from invdesign._spec import parse_cell, parse_fab, parse_spec
+    from invdesign._tradeoff import spread_points
+
+    spec = parse_spec({"name": "tiny", "operating_nm": 1310.0,
+                       "band": {"start_nm": 1290.0, "stop_nm": 1330.0, "count": 5},
+                       "environment": {"superstrate_index": 1.0, "substrate_index": 1.45},
+                       "material": "gold_rakic1998",
+                       "goals": [{"metric": "modulation_depth", "sense": ">=", "target": 0.8}]})
+    fam = make_family(spec, parse_fab(SMALL_FAB), parse_cell(SMALL_CELL))
+    u = spread_points(fam, 8, 5)
+    v = np.asarray(fam.values(u))
+    # the same points as scipy's scrambled Sobol sequence with the same seed (scipy.stats.qmc, its own
+    # code path), mapped to the box and kept 1e-3 of the box inside its faces
+    frac = np.clip(qmc.Sobol(len(fam.names), scramble=True, seed=5).random(8), 1e-3, 1 - 1e-3)
+    np.testing.assert_allclose(v, fam.lo + (fam.hi - fam.lo) * frac, rtol=1e-10)
+    assert np.all(v > fam.lo) and np.all(v < fam.hi)
+    np.testing.assert_array_equal(spread_points(fam, 8, 5), u)        # seeded: reproducible
