@@ -412,30 +412,59 @@ def dda_response(design, wavelengths_nm, spacing_nm, *, incidence: Incidence = N
     Returns:
       (``Response`` with the fast model's shapes and conventions (chain_residual zeros), ``DdaInfo``).
     """
-    setup = dda_setup(design, wavelengths_nm, spacing_nm, incidence=incidence, options=options)
+    return dda_responses(design, [wavelengths_nm], spacing_nm, incidence=incidence, options=options,
+                         strict=strict)[0]
+
+
+def dda_responses(design, wavelength_sets, spacing_nm, *, incidence: Incidence = NORMAL_INCIDENCE,
+                  options: DdaOptions = DdaOptions(), strict: bool = True):
+    """``dda_response`` for several wavelength lists at one spacing with one compiled solver.
+
+    The union of the lists is solved once, in increasing wavelength (warm starts), with the Ewald plan
+    and diffraction orders of its shortest wavelength; each list's ``Response`` then keeps the orders
+    ``dda_response`` would list for it alone (evanescent orders carry zero power, so sums are unchanged).
+    Returns a list of (``Response``, ``DdaInfo``), one per list; the compilation time is in the
+    ``seconds`` of whichever list holds the shortest wavelength.
+    """
+    sets = [np.atleast_1d(np.asarray(w, dtype=float)) for w in wavelength_sets]
+    for w in sets:
+        prepare(design, w, incidence=incidence)  # each list's own checks (range, positivity) first
+    union = np.unique(np.concatenate(sets))
+    setup = dda_setup(design, union, spacing_nm, incidence=incidence, options=options)
     problem = setup.problem
-    wl = problem.wavelengths_nm
     fn = jax.jit(wavelength_function(setup))
     eps = np.stack([problem.eps[n] for n in setup.materials])  # (n_mat, n_wl)
     a1, a2 = (jnp.asarray(v, dtype=float) for v in (design.params.a1, design.params.a2))
-    outs, stats, seconds = [None] * len(wl), [None] * len(wl), [None] * len(wl)
+    solved = {}
     history = WarmStart(options.warm_start, (2, int(setup.grid.counts.sum()), 3))
-    for i in np.argsort(wl, kind="stable"):  # increasing wavelength: neighbours make the warm starts
-        lam = wl[i]
+    for i, lam in enumerate(union):  # increasing wavelength: neighbours make the warm starts
         start = time.perf_counter()
         out, st = jax.block_until_ready(fn(jnp.asarray(eps[:, i]), jnp.float64(lam), a1, a2, history.guess()))
-        seconds[i] = time.perf_counter() - start
+        seconds = time.perf_counter() - start
         st = jax.tree_util.tree_map(np.asarray, st)
         _check([st], [lam], strict, options.tol)
         history.push(out[-1])
-        outs[i] = [np.asarray(o) for o in out[:-1]]
-        stats[i] = st
+        solved[float(lam)] = ([np.asarray(o) for o in out[:-1]], st, seconds)
+    all_orders = [tuple(o) for o in np.asarray(problem.order_indices)]
+    results = []
+    for w in sets:
+        own = np.asarray(prepare(design, w, incidence=incidence).order_indices)
+        keep = np.array([all_orders.index(tuple(o)) for o in own])
+        results.append(_response_of(setup, w, [solved[float(lam)] for lam in w], own, keep))
+    return results
+
+
+def _response_of(setup, wl, solved, orders, keep):
+    """(``Response``, ``DdaInfo``) of the wavelengths ``wl`` from their per-wavelength solves, keeping the
+    diffraction orders ``keep`` (indices into the setup's orders; ``orders`` their (n_o, 2) indices)."""
+    outs, stats, seconds = zip(*solved, strict=True)
     t0, r0, t_pow, r_pow, absorb, prop, t_amp, r_amp = (np.stack(x) for x in zip(*outs, strict=True))
+    t_pow, r_pow, prop, t_amp, r_amp = (t_pow[:, :, keep], r_pow[:, :, keep], prop[:, keep],
+                                        t_amp[:, keep], r_amp[:, keep])
     response = Response(
         wavelengths_nm=wl, t=t0, r=r0, transmittance=t_pow.sum(axis=2), reflectance=r_pow.sum(axis=2),
         absorbance=absorb,
-        orders=Orders(np.asarray(problem.order_indices), prop, t_pow.transpose(0, 2, 1),
-                      r_pow.transpose(0, 2, 1), t_amp, r_amp),
+        orders=Orders(orders, prop, t_pow.transpose(0, 2, 1), r_pow.transpose(0, 2, 1), t_amp, r_amp),
         chain_residual=np.zeros(len(wl)))
     grid = setup.grid
     info = DdaInfo(

@@ -191,12 +191,21 @@ def extinction(resp) -> np.ndarray:
 
 
 # ----------------------------------------------------------------------------------------------- run
-def _solver_response(design, wl, spacing, opts, incidence):
-    from ._dda import DdaOptions, dda_response
+def _solver_responses(design, wavelength_sets, spacing, opts, incidence):
+    """[(Response, info dict)] per wavelength list at one spacing: one compiled solver for all lists."""
+    from ._dda import DdaOptions, dda_responses
 
-    resp, info = dda_response(design, wl, spacing, incidence=incidence,
-                              options=DdaOptions(tol=float(opts.tol), max_points=int(opts.max_grid_points)))
-    return jax.tree_util.tree_map(np.asarray, resp), info._asdict()
+    out = dda_responses(design, wavelength_sets, spacing, incidence=incidence,
+                        options=DdaOptions(tol=float(opts.tol), max_points=int(opts.max_grid_points)))
+    return [(jax.tree_util.tree_map(np.asarray, resp), info._asdict()) for resp, info in out]
+
+
+def scan_wavelengths(opts: VerifyOptions):
+    """(count,) wavelengths of the resonance scan, nm, or None without a scan."""
+    if opts.scan is None:
+        return None
+    a, b, n = opts.scan
+    return np.linspace(float(a), float(b), int(n))
 
 
 #: largest violation of 0 <= T, R, |t_ij|^2 <= 1, A >= 0 and R + T + A = 1 an extrapolated response may show
@@ -335,9 +344,15 @@ def run_verify(design, spec, fab, model: ModelOptions, opts: VerifyOptions, *,
     log(f"verify: fast model done in {time.perf_counter() - t0:.1f} s")
     spacings = [float(d) for d in opts.spacings_nm]
     solver_info, solver_resps, solver_keys = [], [], []
+    scan_wl = scan_wavelengths(opts)
+    scan_resps = []
     for d in sorted(spacings, reverse=True):
         ts = time.perf_counter()
-        resp, info = _solver_response(design, wl, d, opts, incidence)
+        # the goal wavelengths and the resonance scan share one compiled solver per spacing
+        solved = _solver_responses(design, [wl] if scan_wl is None else [wl, scan_wl], d, opts, incidence)
+        resp, info = solved[0]
+        if scan_wl is not None:
+            scan_resps.append(solved[1][0])
         info = dict(info)
         info["seconds"] = round(time.perf_counter() - ts, 2)
         key = f"grid d={float(info.get('spacing_nm', d)):.3g} nm"
@@ -373,18 +388,17 @@ def run_verify(design, spec, fab, model: ModelOptions, opts: VerifyOptions, *,
               "balance_error_max": {k: float(np.max(np.abs(1 - r.transmittance - r.reflectance
                                                             - r.absorbance)))
                                     for k, r in responses.items() if k != EXTRAPOLATED}}
-    if opts.scan is not None:
-        result["resonance"] = _resonance_study(design, model, opts, incidence, used, log)
+    if scan_wl is not None:
+        result["resonance"] = _resonance_study(design, model, scan_wl, incidence, used, scan_resps, log)
     result["seconds"] = round(time.perf_counter() - t0, 2)
     return result
 
 
-def _resonance_study(design, model, opts, incidence, used, log) -> dict:
-    a, b, n = opts.scan
-    wl = np.linspace(float(a), float(b), int(n))
+def _resonance_study(design, model, wl, incidence, used, resps, log) -> dict:
+    """Resonance shift on the scan ``wl`` (n,) nm from the solver's scan responses ``resps`` (one per
+    spacing in ``used``, coarsest first, as solved with the goal wavelengths)."""
     fast = simulate(design, wl, model=model, incidence=incidence)
-    spacings = sorted(used, reverse=True)
-    resps = [_solver_response(design, wl, d, opts, incidence)[0] for d in spacings]
+    spacings = list(used)
     est = best_estimate(spacings, resps)
     ext = est["response"]
     out = {"scan_nm": wl.tolist(), "fast_extinction": extinction(fast).tolist(),

@@ -129,7 +129,9 @@ def test_warm_start_of_isolated_cross_sections_gives_the_cold_answer():
     c, info_c = dda_cross_sections(rod, eps, wl, 1.2, 10.0, options=DdaOptions(tol=1e-10, warm_start=0))
     w, info_w = dda_cross_sections(rod, eps, wl, 1.2, 10.0, options=DdaOptions(tol=1e-10, warm_start=1))
     np.testing.assert_allclose(w.ext, c.ext, rtol=1e-7)  # κ·tol, see above
-    assert info_w.iterations[1:].sum() < info_c.iterations[1:].sum()
+    np.testing.assert_allclose(w.abs, c.abs, rtol=1e-7)
+    # (no product claim here: an isolated rod converges in ~16 products and 5 % steps in ε move the
+    # solution too far for the start to help; measured 18–20 warm against 16 cold)
 
 
 def test_bad_warm_start_is_refused():
