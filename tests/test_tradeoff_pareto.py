@@ -221,17 +221,16 @@ def test_crossed_polish_starts_are_the_other_vertices_best_anchors_exactly():
     np.testing.assert_array_equal(crossed, [[1.0, 0.2], [2.0, 0.3], [2.0, 0.3], [1.0, 0.2]])
 
 
-def test_spread_starts_take_each_vertex_best_anchor_then_its_best_spread_points():
+def test_spread_starts_keep_the_anchor_rows_and_add_each_vertex_best_spread_point():
     from invdesign._tradeoff import spread_starts
 
-    # two vertices, three starts each: own best anchor, then the spread points by that vertex's merit
-    # (hand-derived orders: vertex 0 ranks points 2, 0, 1; vertex 1 ranks 1, 2, 0)
-    best = np.array([[1.0], [2.0]])
+    # two vertices, two anchor starts each (vertex-major rows), then one extra row per vertex: the spread
+    # point with that vertex's lowest merit (hand-derived: vertex 0 point 2, vertex 1 point 1)
+    anchors = np.array([[1.0], [1.5], [2.0], [2.5]])
     points = np.array([[10.0], [11.0], [12.0]])
     merit = np.array([[0.5, 0.9, 0.1], [3.0, 1.0, 2.0]])
-    np.testing.assert_array_equal(spread_starts(best, points, merit, 3)[:, 0], [1.0, 12.0, 10.0,
-                                                                                  2.0, 11.0, 12.0])
-    np.testing.assert_array_equal(spread_starts(best, points, merit, 1)[:, 0], [1.0, 2.0])
+    np.testing.assert_array_equal(spread_starts(anchors, points, merit, 2)[:, 0],
+                                  [1.0, 1.5, 12.0, 2.0, 2.5, 11.0])
 
 
 def test_spread_points_are_the_seeded_sobol_points_inside_the_box():
