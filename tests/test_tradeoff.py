@@ -9,6 +9,7 @@ Check values: for x signal, y control and x analyzer the channel amplitudes are 
 """
 
 import json
+import math
 import pathlib
 import subprocess
 import sys
@@ -257,3 +258,27 @@ def test_smooth_band_shortfall_is_conservative_and_exact_elsewhere():
             others = np.arange(len(exact)) != band
             np.testing.assert_array_equal(smooth[others], exact[others])
             assert exact[band] <= smooth[band] <= exact[band] + softness * np.log(n) + 1e-12
+
+
+def test_spread_polish_counts_its_scoring_calls_and_resumes_to_the_same_front(tmp_path):
+    from invdesign._tradeoff import SPREAD_POINTS
+
+    # polish_starts = spread: each vertex gets one polish row more than its anchor starts, and the spread
+    # points' scoring (SPREAD_POINTS per vertex, in batches of the compiled width) is in the count; a run
+    # stopped after the anchors resumes to the same result as a straight one
+    ts = small(front={"divisions": 4, "steps": 15, "polish_starts": "spread", "polish_steps": 5,
+                      "lagrange_rounds": 2, "extreme_steps": 10})
+    straight = run_front(ts, tmp_path / "a", quiet=True)
+    phases = {p["phase"]: p for p in straight["phases"]}
+    pol, m, k = phases["polish"], len(ts.objectives), ts.base.opts.starts
+    assert pol["starts"] == "spread" and pol["rows"] == m * (k + 1)
+    assert pol["spread_evaluations"] == m * ts.rows * math.ceil(SPREAD_POINTS / ts.rows)
+    expect = ts.rows * (phases["anchors"]["steps"] + phases["anchors"]["feasibility_steps"])
+    expect += pol["rows"] * pol["calls"] + pol["spread_evaluations"] + ts.rows * phases["extremes"]["calls"]
+    expect += sum(p["rows"] * p["steps"] for p in straight["phases"] if p["phase"].startswith("wave"))
+    assert int(straight["evaluations"]) == expect
+    run_front(ts, tmp_path / "b", quiet=True, stop_after_anchors=True)
+    again = run_front(ts, tmp_path / "b", quiet=True)
+    assert int(again["evaluations"]) == int(straight["evaluations"])
+    np.testing.assert_allclose(again["u"], straight["u"], rtol=0, atol=1e-9)
+    np.testing.assert_allclose(again["pool_u"], straight["pool_u"], rtol=0, atol=1e-9)
