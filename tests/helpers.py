@@ -75,3 +75,27 @@ def assert_refused(command: str, args, message: str):
     assert done.returncode == 2, (done.stdout, done.stderr)
     assert message in done.stderr, done.stderr
     assert "Traceback" not in done.stderr
+
+
+def check_dda_gradient(fn, guess=None, x0=(-10.0, 300.0), h=(1e-4, 1e-3)):
+    """Assert that the DDA wavelength function's gradient matches central finite differences; return it.
+
+    ``fn`` is ``_dda.wavelength_function(setup)`` for a one-material cell; the checked quantity is the
+    zero-order transmitted power (first input) + 0.3 × absorbance (second input) at 700 nm, as a function
+    of x = (Re ε of the material, square period in nm), Im ε = 1; ``guess`` is passed to the solve.
+    """
+    import jax
+    import jax.numpy as jnp
+
+    def f(x):
+        out, _ = fn(jnp.asarray([x[0] + 1.0j]), jnp.float64(700.0), jnp.array([x[1], 0.0]),
+                    jnp.array([0.0, x[1]]), guess)
+        return out[2][0, 0] + 0.3 * out[4][1]
+
+    x0 = jnp.asarray(x0)
+    grad = np.asarray(jax.jit(jax.grad(f))(x0))
+    fj = jax.jit(f)
+    fd = [(fj(x0.at[i].add(h[i])) - fj(x0.at[i].add(-h[i]))) / (2 * h[i]) for i in range(2)]
+    np.testing.assert_allclose(grad, np.asarray(fd), rtol=TOL["gradient_fd"])
+    assert np.all(np.abs(grad) > 0)
+    return grad

@@ -18,12 +18,11 @@ Sources of check values (each is also named beside its check):
 import invdesign._jaxsetup  # noqa: F401  (CPU + float64 before jax is used)
 
 # isort: split
-import jax
 import jax.numpy as jnp
 import miepython
 import numpy as np
 import pytest
-from helpers import TOL
+from helpers import TOL, check_dda_gradient
 
 from invdesign import LIBRARY, Design, InvdesignError, Sphere, simulate
 from invdesign._dda import (
@@ -302,18 +301,4 @@ def test_gradient_matches_finite_differences():
     # permittivity and the period, on an 8-dipole cell
     d = cell([rod(0, 0, 40, 0)], material={"model": "constant", "eps_real": -10.0, "eps_imag": 1.0})
     setup = dda_setup(d, [700.0], 10.0, options=DdaOptions(tol=1e-13))
-    fn = wavelength_function(setup)
-
-    def f(x):
-        eps = jnp.asarray([x[0] + 1.0j])
-        a = x[1]
-        out, _ = fn(eps, jnp.float64(700.0), jnp.array([a, 0.0]), jnp.array([0.0, a]))
-        return out[2][0, 0] + 0.3 * out[4][1]  # zero-order transmitted power (x in) + absorbance (y in)
-
-    x0 = jnp.array([-10.0, 300.0])
-    grad = np.asarray(jax.jit(jax.grad(f))(x0))
-    f = jax.jit(f)
-    h = np.array([1e-4, 1e-3])
-    fd = [(f(x0.at[i].add(h[i])) - f(x0.at[i].add(-h[i]))) / (2 * h[i]) for i in range(2)]
-    np.testing.assert_allclose(grad, np.asarray(fd), rtol=TOL["gradient_fd"])
-    assert np.all(np.abs(grad) > 0)
+    check_dda_gradient(wavelength_function(setup))

@@ -12,11 +12,10 @@ Sources of check values:
 import invdesign._jaxsetup  # noqa: F401  (CPU + float64 before jax is used)
 
 # isort: split
-import jax
 import jax.numpy as jnp
 import numpy as np
 import pytest
-from helpers import TOL
+from helpers import check_dda_gradient
 
 from invdesign import Design, InvdesignError
 from invdesign._dda import DdaOptions, dda_cross_sections, dda_response, dda_setup, wavelength_function
@@ -152,19 +151,8 @@ def test_gradient_with_a_warm_start_matches_finite_differences():
     out_prev, _ = fn(jnp.asarray([-10.0 + 1.0j]), jnp.float64(690.0), *a0)
     guess = out_prev[-1][:, None]  # (2, 1, n_d, 3)
 
-    def f(x, g):
-        eps = jnp.asarray([x[0] + 1.0j])
-        a = x[1]
-        out, _ = fn(eps, jnp.float64(700.0), jnp.array([a, 0.0]), jnp.array([0.0, a]), g)
-        return out[2][0, 0] + 0.3 * out[4][1]
-
-    x0 = jnp.array([-10.0, 300.0])
-    grad = np.asarray(jax.jit(jax.grad(f))(x0, guess))
-    grad_cold = np.asarray(jax.jit(jax.grad(lambda x: f(x, None)))(x0))
-    fj = jax.jit(f)
-    h = np.array([1e-4, 1e-3])
-    fd = [(fj(x0.at[i].add(h[i]), guess) - fj(x0.at[i].add(-h[i]), guess)) / (2 * h[i]) for i in range(2)]
-    np.testing.assert_allclose(grad, np.asarray(fd), rtol=TOL["gradient_fd"])
+    grad = check_dda_gradient(fn, guess)
+    grad_cold = check_dda_gradient(fn)
     np.testing.assert_allclose(grad, grad_cold, rtol=1e-8)  # same derivative as the cold solve
     # the guess is used: fewer products than the cold solve
     (_, st_w), (_, st_c) = fn(jnp.asarray([-10.0 + 1.0j]), jnp.float64(700.0), *a0, guess), \
