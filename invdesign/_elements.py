@@ -141,3 +141,10 @@ def effective_length(element):
     Differentiable in the element's dimensions.
     """
     return 4.0 * element.volume() / element.surface_area()
+
+
+def stack_elements(elements):
+    """Same-class elements as one pytree with a leading axis (n,) on every field; material names dropped
+    (they are static metadata and would make the tree structures differ)."""
+    bare = [dataclasses.replace(e, material="") for e in elements]
+    return jax.tree_util.tree_map(lambda *xs: jnp.stack([jnp.asarray(x, dtype=float) for x in xs]), *bare)

@@ -28,6 +28,7 @@ import jax
 import jax.numpy as jnp
 import numpy as np
 
+from ._elements import stack_elements
 from ._geometry import pair_gaps
 from ._spec import FabDeck, Spec, zero_order_period_limit
 
@@ -87,11 +88,6 @@ SHIFTS = np.array([(i, j) for i in (-1, 0, 1) for j in (-1, 0, 1)], dtype=float)
 _BIG_NM = 1e9
 
 
-def _stack_rods(rods):
-    bare = [dataclasses.replace(e, material="") for e in rods]
-    return jax.tree_util.tree_map(lambda *xs: jnp.stack([jnp.asarray(x, dtype=float) for x in xs]), *bare)
-
-
 def smooth_gaps(params) -> jax.Array:
     """Smooth lower bounds of every pair's gap (nm), periodic images included: (n_pairs,) for i ≤ j.
 
@@ -102,7 +98,7 @@ def smooth_gaps(params) -> jax.Array:
     gradient 62k lines of XLA for three rods, seven times the optical model's (measured), and its compile
     the slowest part of an optimiser step.
     """
-    rods = _stack_rods(params.elements)
+    rods = stack_elements(params.elements)
     n = len(params.elements)
     i_idx, j_idx = np.triu_indices(n)
     shifts = jnp.asarray(SHIFTS[:, :1]) * params.a1 + jnp.asarray(SHIFTS[:, 1:]) * params.a2   # (9, 2)
@@ -216,8 +212,6 @@ def snap(params, fab: FabDeck, spec: Spec):
     a1 = np.array([in_range(a1[0], fab.period_min_nm, p_hi), 0.0])
     a2 = np.array([0.0, in_range(a2[1], fab.period_min_nm, p_hi)])
     rods = []
-    import dataclasses
-
     for e in params.elements:
         c = np.round(np.asarray(e.center, float) / g) * g
         ang = round(float(e.angle_deg) / fab.angle_step_deg) * fab.angle_step_deg

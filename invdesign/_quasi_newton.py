@@ -1,9 +1,10 @@
 """L-BFGS over an already-compiled, batched value-and-gradient: optax's direction, a host-side line search.
 
 Why not ``optax.lbfgs`` as it stands: its zoom line search calls the loss inside a ``lax.while_loop`` of the
-step, so XLA compiles the whole model a second (and third) time inside the loop; on the 3-rod, 21-wavelength
-benchmark cell that compile had not finished after 20 minutes (measured). Here the step is split so that
-nothing new of the model is compiled:
+step, so the step's program holds the model's loss a second time (inside the loop) beside the gradient.
+(Its 20-minute compile on the 3-rod benchmark cell was mostly the then-unrolled gap penalty,
+``invdesign._penalties.smooth_gaps``, since vectorised; this split stays because it compiles exactly the
+program the Adam step compiles.) Here the step is split so that nothing new of the model is compiled:
 
 * ``value_grad`` is the one jitted, ``jax.vmap``-ed function u (S, n) -> ((loss (S,), aux), grad (S, n))
   that the Adam step uses too (S starts, n unconstrained parameters, loss dimensionless);
@@ -103,7 +104,7 @@ def make_lbfgs(value_grad, ls: LineSearch = LineSearch()):
             if np.all(accepted | stationary):
                 break
             eta = np.where(accepted, eta, eta * ls.shrink)
-        failed = ~accepted
+        failed = ~accepted & ~stationary
         memory_next = select(jnp.asarray(failed), dir_init(u), memory_next)
         u_next, f_next, g_next, aux_next = best
         return u_next, (memory_next, f_next, g_next, aux_next, calls_before + calls), f, aux

@@ -35,7 +35,7 @@ import numpy as np
 
 from . import _jaxsetup  # noqa: F401
 from ._chain import chain_coupling, chain_offsets, intra_chain_correction, renormalise
-from ._elements import effective_length
+from ._elements import effective_length, stack_elements
 from ._errors import InvdesignError
 from ._farfield import order_amplitudes
 from ._geometry import pair_gaps
@@ -272,12 +272,6 @@ def _propagating_orders(a1, a2, k_max, kpar_max, scales) -> np.ndarray:
     return np.array(sorted(found, key=lambda t: (abs(t[0]) + abs(t[1]), t)), dtype=np.int64)
 
 
-def _stack(elements):
-    """Stack same-class elements into one pytree with a leading axis (material names dropped)."""
-    bare = [dataclasses.replace(e, material="") for e in elements]
-    return jax.tree_util.tree_map(lambda *xs: jnp.stack([jnp.asarray(x, dtype=float) for x in xs]), *bare)
-
-
 def _dipole_order(problem: Problem):
     """Element index and chain length of each dipole, in the order ``_dipoles`` emits them."""
     groups: dict = {}
@@ -319,7 +313,7 @@ def _dipoles(params, problem: Problem, k):
         groups.setdefault((e.shape, n), []).append(e)
     pos, lams, axes, resid = [], [], [], []
     for (_, n), elems in groups.items():
-        stacked = _stack(elems)
+        stacked = stack_elements(elems)
         eps = jnp.stack([jnp.asarray(problem.eps[e.material]) for e in elems])  # (n_g, n_wl)
         free = jnp.array([problem.free_electron.get(e.material, (0.0, 0.0, 0.0)) for e in elems])
 
