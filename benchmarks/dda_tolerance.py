@@ -11,6 +11,7 @@ and off at the default tolerance, side by side.
 
     python benchmarks/dda_tolerance.py [--design examples/kestrel_cross_pair.json] [--spec heron_1310]
                                        [--spacings 10 7.5] [--tols 1e-3 1e-4 1e-5 1e-6] [--ref-tol 1e-8]
+                                       [--skip-example | --skip-benchmark-cell]
 """
 
 import argparse
@@ -87,7 +88,11 @@ def main():
     ap.add_argument("--tols", type=float, nargs="+", default=[1e-3, 1e-4, 1e-5, 1e-6])
     ap.add_argument("--ref-tol", type=float, default=1e-8)
     ap.add_argument("--skip-benchmark-cell", action="store_true")
+    ap.add_argument("--skip-example", action="store_true",
+                    help="study only the benchmark cell of dda_scaling.py (two gold rods)")
     args = ap.parse_args()
+    if args.skip_example and args.skip_benchmark_cell:
+        ap.error("--skip-example and --skip-benchmark-cell together leave nothing to study; drop one")
 
     from dda_scaling import CELL
 
@@ -100,7 +105,8 @@ def main():
     default_tol = DdaOptions().tol
     if default_tol not in args.tols:
         ap.error(f"--tols must include the default tolerance {default_tol:g}")
-    designs = [("example " + pathlib.Path(args.design).name, Design.from_json(pathlib.Path(args.design)))]
+    designs = [] if args.skip_example else [
+        ("example " + pathlib.Path(args.design).name, Design.from_json(pathlib.Path(args.design)))]
     if not args.skip_benchmark_cell:
         designs.append(("benchmark cell (dda_scaling.py)", Design.from_json(CELL)))
     for name, design in designs:
