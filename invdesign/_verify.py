@@ -57,7 +57,10 @@ class VerifyOptions:
 
     Attributes:
       spacings_nm: grid spacings d of the discretised solver, nm, at least two, distinct, each > 0.
-      tol: relative residual at which the iterative solve stops.
+      tol: relative residual at which the iterative solve stops. Default 1e-4: measured with
+        ``benchmarks/dda_tolerance.py`` on the shipped example and on the benchmark cell, every reported
+        figure moved at 1e-4 by at most 1.7e-4 (example) and 2.6e-5 (benchmark cell) of its change between
+        the two coarsest grids, against a 1e-8 solve, for 0.52–0.54× the products of 1e-6.
       scan: (start_nm, stop_nm, count) of a wider scan for the resonance shift, or None to skip it.
       substrate_row: also run the fast model with the rigorous substrate (environment "interface") when
         the checked model uses the averaged medium, and show it beside (the solver uses the averaged medium,
@@ -68,7 +71,7 @@ class VerifyOptions:
 
     spacings_nm: tuple = (10.0, 7.5, 5.0)
     substrate_row: bool = True
-    tol: float = 1e-6
+    tol: float = 1e-4
     scan: tuple | None = None
     max_grid_points: int = 400_000
 
@@ -117,7 +120,7 @@ def parse_verify_options(doc, operating_nm: float) -> VerifyOptions:
     if count:
         scan = (scan_r.number("start_nm", 0.6 * operating_nm, positive=True),
                 scan_r.number("stop_nm", 1.4 * operating_nm, positive=True), count)
-    return VerifyOptions(spacings_nm=tuple(spacings), tol=r.number("tol", 1e-6, positive=True),
+    return VerifyOptions(spacings_nm=tuple(spacings), tol=r.number("tol", 1e-4, positive=True),
                          substrate_row=r.flag("substrate_row", True),
                          scan=scan,
                          max_grid_points=r.number("max_grid_points", 400_000, integer=True, minimum=1))
