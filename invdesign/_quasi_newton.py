@@ -27,9 +27,8 @@ pair has sᵀy < 0 on this non-convex loss) is replaced by −∇f; a start whos
 ``max_backtracks`` times stays where it is and its memory is cleared, so its next step starts again from
 steepest descent; a start at its minimum to machine precision — a rejected trial left the loss unchanged
 in floating point, or the next trial could only lower it by less than its rounding level,
-−η ∇f·p ≤ ``stall_tol``·|f| — stops searching for that step
-without a reset (otherwise, because a trial evaluates the whole batch, one converged start would cost every
-step ``max_backtracks`` calls).
+−η ∇f·p ≤ ``stall_tol``·|f| — stops searching for that step without a reset (otherwise, because a trial
+evaluates the whole batch, one converged start would cost every step ``max_backtracks`` calls).
 
 The optimiser state is (lbfgs memory, loss, gradient, aux at the current point, calls (S,) int): the
 running count of ``value_grad`` calls (each one a batched loss and gradient, about 2.2 forward costs per

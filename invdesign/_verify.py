@@ -85,7 +85,7 @@ class VerifyOptions:
             raise InvdesignError(f"verify.spacings_nm must be distinct (extrapolation needs different "
                                  f"spacings); got {list(d)}")
         if not (0 < self.tol < 1):
-            raise InvdesignError(f"verify.tol must be in (0, 1), e.g. 1e-6; got {self.tol!r}")
+            raise InvdesignError(f"verify.tol must be in (0, 1), e.g. 1e-4; got {self.tol!r}")
         if self.scan is not None:
             a, b, n = self.scan
             if not (0 < a < b) or int(n) < 3:
@@ -109,7 +109,8 @@ def parse_verify_options(doc, operating_nm: float) -> VerifyOptions:
         "max_grid_points": "largest grid (points in the elements' bounding box) allowed (memory guard)",
         "resonance_scan": "{start_nm, stop_nm, count} of the wider scan for the resonance shift",
         "substrate_row": "true to add the fast model with the rigorous substrate beside the averaged one"})
-    spacings = r.raw("spacings_nm", [10.0, 7.5, 5.0])
+    base = VerifyOptions()   # the one place the defaults live
+    spacings = r.raw("spacings_nm", list(base.spacings_nm))
     if not isinstance(spacings, (list, tuple)):
         raise InvdesignError(f"verification.spacings_nm must be a list of spacings in nm, got {spacings!r}")
     scan_r = r.sub("resonance_scan", {"start_nm": "first wavelength, nm (default 0.6 x operating)",
@@ -120,10 +121,11 @@ def parse_verify_options(doc, operating_nm: float) -> VerifyOptions:
     if count:
         scan = (scan_r.number("start_nm", 0.6 * operating_nm, positive=True),
                 scan_r.number("stop_nm", 1.4 * operating_nm, positive=True), count)
-    return VerifyOptions(spacings_nm=tuple(spacings), tol=r.number("tol", 1e-4, positive=True),
-                         substrate_row=r.flag("substrate_row", True),
+    return VerifyOptions(spacings_nm=tuple(spacings), tol=r.number("tol", base.tol, positive=True),
+                         substrate_row=r.flag("substrate_row", base.substrate_row),
                          scan=scan,
-                         max_grid_points=r.number("max_grid_points", 400_000, integer=True, minimum=1))
+                         max_grid_points=r.number("max_grid_points", base.max_grid_points, integer=True,
+                                                  minimum=1))
 
 
 # ------------------------------------------------------------------------------------- extrapolation

@@ -22,7 +22,9 @@ def test_verify_run_writes_table_plot_and_a_recomputable_extrapolation(tmp_path)
     design = tmp_path / "pair.json"
     design.write_text(json.dumps(DESIGN))
     out = tmp_path / "run"
-    done = _run(f"design={design}", *SMALL, f"hydra.run.dir={out}")
+    # the solve tolerance is pinned at 1e-6 (the default is 1e-4) because the energy-balance check below
+    # is a property of the solve only to about its relative residual (measured 1.07e-6 at 1e-4)
+    done = _run(f"design={design}", *SMALL, "verification.tol=1e-6", f"hydra.run.dir={out}")
     assert done.returncode == 0, done.stderr
     for name in ("verify.json", "verify.md", "verify.png", "design.json", "run_config.yaml"):
         assert (out / name).is_file(), name
