@@ -90,14 +90,15 @@ def solver_memory(design, setup, wavelength_nm, warm: int) -> dict:
     Green's kernel and its FFT, the FFT product's work arrays, the Krylov vectors), independent of the
     process's fixed base (Python, libraries, compiled code). Also the FFT kernel's own size, 6 complex
     arrays of the FFT box, for comparison, and the temporaries of one block of the Green's-tensor
-    tabulation alone (``DdaOptions.chunk`` displacements through the Ewald sums): a workspace set by the
-    chunk and the Ewald plan, not by the grid, which the solve's temporaries contain."""
+    tabulation alone (``DdaOptions.chunk`` displacements through the real-space Ewald sum,
+    ``invdesign._green_grid``): a workspace set by the chunk and the Ewald plan, not by the grid, which the
+    solve's temporaries contain."""
     import jax
     import jax.numpy as jnp
 
     from invdesign._dda import wavelength_function
     from invdesign._dda_operator import fft_shape
-    from invdesign._green import lattice_dyadic
+    from invdesign._green_grid import _real_block
     from invdesign._lattice import Lattice
     from invdesign._units import k0_per_m
 
@@ -111,7 +112,9 @@ def solver_memory(design, setup, wavelength_nm, warm: int) -> dict:
     k = k0_per_m(wavelength_nm) * setup.problem.medium_index
     lattice = Lattice.from_nm(a1, a2)
     chunk = setup.options.chunk
-    block = jax.jit(lambda r, o: lattice_dyadic(r, o, k, jnp.zeros(2), lattice, setup.problem.plan))
+    plan = setup.kernel_plan
+    e = lattice.ewald_parameter(k, plan.e_scale)
+    block = jax.jit(lambda r, o: _real_block(r, o, k, jnp.zeros(2), lattice, plan, e))
     r = jnp.tile(jnp.array([[1e-9, 0.0, 0.0]]), (chunk, 1))
     chunk_mem = block.lower(r, jnp.zeros(chunk, bool)).compile().memory_analysis()
     return {"chunk_temp_bytes": int(chunk_mem.temp_size_in_bytes),
@@ -140,7 +143,7 @@ def one_size(spacing: float, wavelengths, preconditioner: str, segment_nm: float
     k = k0_per_m(wavelengths[0]) * setup.problem.medium_index
     lat = Lattice.from_nm(design.params.a1, design.params.a2)
     kern = jax.jit(lambda kk: lattice_kernel(g.shape, g.spacing_nm * NM, kk, jax.numpy.zeros(2), lat,
-                                             setup.problem.plan, setup.exclude, even=True))
+                                             setup.kernel_plan, setup.exclude, even=True))
     jax.block_until_ready(kern(k))
     t0 = time.perf_counter()
     jax.block_until_ready(kern(k))

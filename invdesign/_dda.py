@@ -68,6 +68,7 @@ from ._dda_precond import (
 from ._errors import InvdesignError
 from ._farfield import order_amplitudes
 from ._green import lattice_dyadic
+from ._green_grid import GRID_EWALD_SCALE
 from ._lattice import Lattice
 from ._simulate import Incidence, Orders, Response, prepare
 from ._solve import plane_wave_at
@@ -180,6 +181,7 @@ class DdaSetup:
 
     grid: DipoleGrid
     problem: object  # the fast model's ``Problem`` (ε(λ), medium, Ewald plan, orders)
+    kernel_plan: object  # ``EwaldPlan`` of the kernel table, cut for ``GRID_EWALD_SCALE``
     materials: tuple  # material names, in the order of the ε vector
     material_index: np.ndarray  # (n_d,) index into ``materials``
     volume_m3: np.ndarray  # (n_d,) dipole volumes
@@ -212,7 +214,8 @@ def dda_setup(design, wavelengths_nm, spacing_nm, *, incidence: Incidence = NORM
     p = design.params
     rvec, _ = displacement_table(grid.shape, grid.spacing_nm * NM)
     exclude = lattice_image_mask(rvec, np.asarray(p.a1), np.asarray(p.a2))
-    return DdaSetup(grid, problem, materials, mat_of_el[grid.owner],
+    kernel_plan = prepare(design, wavelengths_nm, incidence=incidence, ewald_scale=GRID_EWALD_SCALE).plan
+    return DdaSetup(grid, problem, kernel_plan, materials, mat_of_el[grid.owner],
                     _dipole_volumes(grid, elements, options.volume), exclude, options,
                     _coarse(grid, elements, options))
 
@@ -338,7 +341,7 @@ def wavelength_function(setup: DdaSetup):
         kpar = kvec[:2]
         lam = _lambdas(setup, eps, k, khat, pols)
         alpha_inv = lam - 1j * k**3 / (6 * jnp.pi)
-        kernel_hat = lattice_kernel(shape, d_m, k, kpar, lattice, problem.plan, setup.exclude,
+        kernel_hat = lattice_kernel(shape, d_m, k, kpar, lattice, setup.kernel_plan, setup.exclude,
                                     chunk=setup.options.chunk, even=normal)
         g_self = lattice_dyadic(jnp.zeros(3), jnp.asarray(True), k, kpar, lattice, problem.plan)
         pols_c = jnp.asarray(pols).astype(complex)

@@ -29,7 +29,8 @@ import jax.numpy as jnp
 import numpy as np
 import scipy.fft
 
-from ._green import free_dyadic, lattice_dyadic
+from ._green import free_dyadic
+from ._green_grid import grid_lattice_dyadic
 
 #: (a, b) index pairs of the six stored tensor components
 COMPONENTS = ((0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2))
@@ -86,33 +87,48 @@ def _tabulate(fn, rvec, chunk):
     return out.reshape(-1, 6)[:n].T.reshape((6,) + rvec.shape[:-1])
 
 
+def _axis_entries(n: int, m: int, spacing_m: float, half: bool):
+    """Used circulant indices of one axis and their displacements (m): 0 … n − 1, then M − n + 1 … M − 1
+    (the displacements −(n − 1) … −1); only the first group when ``half``."""
+    idx = np.arange(n) if half else np.concatenate([np.arange(n), np.arange(m - n + 1, m)])
+    return idx, np.where(idx < n, idx, idx - m).astype(float) * spacing_m
+
+
 def lattice_kernel(shape, spacing_m, k, kpar, lattice, plan, exclude, *, chunk=2048, even=False):
     """FFT of the periodic kernel −k² G_L on the circulant displacement table.
 
     Args:
       shape: (nx, ny, nz) grid points (static). spacing_m: grid spacing d, metres (static float).
       k: medium wavenumber, 1/m, scalar. kpar: (2,) Bloch wavevector, 1/m.
-      lattice: ``Lattice`` (metres; may be traced). plan: ``EwaldPlan`` (static).
+      lattice: ``Lattice`` (metres; may be traced). plan: ``EwaldPlan`` (static); the tabulation
+        (``invdesign._green_grid``) is fastest with one made for ``e_scale=GRID_EWALD_SCALE``.
       exclude: (M1, M2, M3) static bool, displacements to zero (``lattice_image_mask`` of the nominal
         lattice, plus nothing else).
-      chunk: displacements per tabulation block (static).
+      chunk: displacements per block of the real-space tabulation (static).
       even: static; True promises k∥ = 0, where G_L(−r) = G_L(r) (each term G(r − R_n) is even and the
         lattice is symmetric under R → −R), so only displacements with z ≥ 0 are tabulated (about half).
 
     Returns:
       (6, M1, M2, M3) complex128 FFT of K, 1/m³.
     """
-    rvec, valid = displacement_table(shape, spacing_m)
-    keep = valid & ~exclude
+    ms = fft_shape(shape)
     nz = shape[2]
-    half = slice(0, nz) if even else slice(None)
-    safe = np.where(keep[..., None], rvec, np.array([1.0, 0.0, 0.0]) * spacing_m)[:, :, half]
-    g = _tabulate(lambda r, o: lattice_dyadic(r, o, k, kpar, lattice, plan), safe, chunk)
+    (ix, x), (iy, y), (iz, z) = (_axis_entries(n, m, spacing_m, h)
+                                 for n, m, h in zip(shape, ms, (False, False, even), strict=True))
+    table = np.ix_(ix, iy, iz)
+    at_origin = (ix == 0)[:, None, None] & (iy == 0)[None, :, None] & (iz == 0)[None, None, :]
+    singular = exclude[table] | at_origin  # lattice images are zeroed below; they must stay finite
+    g_used = grid_lattice_dyadic(x, y, z, k, kpar, lattice, plan, singular=singular, chunk=chunk)
+    g = jnp.zeros((6, ms[0], ms[1], len(iz) if even else ms[2]), complex)
+    g = g.at[(slice(None),) + table].set(g_used)
     if even:  # K at index (i, j, M3 − l) is K at (−i, −j, l) mod M, for l = 1 .. nz − 1
-        m1, m2, m3 = rvec.shape[:3]
+        m1, m2, m3 = ms
         mirrored = g[:, (-np.arange(m1)) % m1][:, :, (-np.arange(m2)) % m2][:, :, :, 1:nz][:, :, :, ::-1]
         gap = jnp.zeros((6, m1, m2, m3 - 2 * nz + 1), dtype=g.dtype)
         g = jnp.concatenate([g, gap, mirrored], axis=3)
+    valid = np.zeros(ms, bool)
+    valid[np.ix_(ix, iy, _axis_entries(nz, ms[2], spacing_m, False)[0])] = True
+    keep = valid & ~exclude
     return jnp.fft.fftn(jnp.where(jnp.asarray(keep), -(k**2) * g, 0.0), axes=(1, 2, 3))
 
 

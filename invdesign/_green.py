@@ -173,7 +173,7 @@ def lattice_dyadic(rvec, self_term, k, kpar, lattice, plan):
     Returns:
       complex128 array (..., 3, 3): G_L(r), or lim [G_L(r) - G(r)] where ``self_term``.
     """
-    e = lattice.ewald_parameter(k)
+    e = lattice.ewald_parameter(k, plan.e_scale)
     rw, big_r = _wrap(rvec, lattice)
     terms, pts = _real_space_dyadics(rw, self_term, k, lattice, plan, e)
     real = jnp.einsum("...nab,n->...ab", terms, jnp.exp(1j * pts @ kpar))
@@ -198,7 +198,7 @@ def lattice_dyadic_pair(rvec, k, kpar, lattice, plan):
     Returns:
       (g_plus, g_minus), each (..., 3, 3) complex128.
     """
-    e = lattice.ewald_parameter(k)
+    e = lattice.ewald_parameter(k, plan.e_scale)
     rw, big_r = _wrap(rvec, lattice)
     no_self = jnp.zeros(rw.shape[:-1], dtype=bool)
     terms, pts = _real_space_dyadics(rw, no_self, k, lattice, plan, e)

@@ -59,14 +59,16 @@ class Lattice:
         """Reciprocal lattice vectors m1 b1 + m2 b2 for integer ``indices`` (n, 2); returns (n, 2) in 1/m."""
         return jnp.asarray(indices, dtype=float) @ self.reciprocal_matrix().T
 
-    def ewald_parameter(self, k):
+    def ewald_parameter(self, k, scale: float = 1.0):
         """Ewald splitting parameter E in 1/m (scalar or broadcast with ``k``, the medium wavenumber).
 
-        E = max(sqrt(π/A), Re k / (2H)): the first balances real- and reciprocal-space convergence
-        (Jordan, Richter & Sheng, J. Comput. Phys. 63, 222 (1986)); the second caps the cancellation
-        between real-space terms, which grow like exp(k²/(4E²)).
+        E = scale · max(sqrt(π/A), Re k / (2H)): the first balances real- and reciprocal-space
+        convergence (Jordan, Richter & Sheng, J. Comput. Phys. 63, 222 (1986)); the second caps the
+        cancellation between real-space terms, which grow like exp(k²/(4E²)). The sum does not depend on
+        E; ``scale`` > 1 moves work from the real-space to the spectral sum (``invdesign._green_grid``,
+        where the spectral sum is cheap), and the plan must be made with the same scale.
         """
-        return jnp.maximum(jnp.sqrt(jnp.pi / self.area()), jnp.real(k) / (2.0 * _EWALD_H))
+        return scale * jnp.maximum(jnp.sqrt(jnp.pi / self.area()), jnp.real(k) / (2.0 * _EWALD_H))
 
 
 @dataclasses.dataclass(frozen=True)
@@ -76,19 +78,23 @@ class EwaldPlan:
     Attributes:
       direct: (n_s, 2) int array of (n1, n2) for real-space terms, the origin included.
       reciprocal: (n_g, 2) int array of (m1, m2) for spectral terms.
+      e_scale: the split parameter's ``scale`` (``Lattice.ewald_parameter``) the sets were cut for; the
+        sums use it.
     """
 
     direct: np.ndarray
     reciprocal: np.ndarray
+    e_scale: float = 1.0
 
     def __hash__(self):
-        return hash((self.direct.tobytes(), self.reciprocal.tobytes()))
+        return hash((self.direct.tobytes(), self.reciprocal.tobytes(), self.e_scale))
 
     def __eq__(self, other):
         return (
             isinstance(other, EwaldPlan)
             and np.array_equal(self.direct, other.direct)
             and np.array_equal(self.reciprocal, other.reciprocal)
+            and self.e_scale == other.e_scale
         )
 
 
@@ -107,7 +113,7 @@ def _disk_indices(matrix: np.ndarray, radius: float, centre_shift: float = 0.0) 
 
 def make_ewald_plan(
     a1_nm, a2_nm, k_max_per_m: float, *, r_max_nm: float = 0.0, kpar_max_per_m: float = 0.0,
-    z_max_nm: float = 0.0, scales=(1.0,),
+    z_max_nm: float = 0.0, scales=(1.0,), e_scale: float = 1.0,
 ) -> EwaldPlan:
     """Choose the Ewald truncation for a lattice and a band, so every dropped term is below ~2e-16.
 
@@ -120,6 +126,7 @@ def make_ewald_plan(
       z_max_nm: largest |z| separation between dipoles, nm.
       scales: lattice scale factors the plan must also cover (an optimiser varying the period passes
         its bounds, e.g. (0.8, 1.0, 1.25)); the union of index sets is returned.
+      e_scale: the ``scale`` of ``Lattice.ewald_parameter`` the sums are evaluated with (kept in the plan).
 
     Returns:
       An ``EwaldPlan``; a hashable, static object.
@@ -129,7 +136,7 @@ def make_ewald_plan(
         m = np.stack([np.asarray(a1_nm, float), np.asarray(a2_nm, float)], axis=1) * 1e-9 * s
         area = abs(np.linalg.det(m))
         for k in (0.0, k_max_per_m):
-            e = max(math.sqrt(math.pi / area), k / (2.0 * _EWALD_H))
+            e = e_scale * max(math.sqrt(math.pi / area), k / (2.0 * _EWALD_H))
             r_cut = math.sqrt(k**2 / (4 * e**2) + _EWALD_DECAY) / e
             shift = r_max_nm * 1e-9 * s
             direct.update(map(tuple, _disk_indices(m, r_cut, shift)))
@@ -138,4 +145,4 @@ def make_ewald_plan(
             recip.update(map(tuple, _disk_indices(b, kappa_cut, kpar_max_per_m)))
     del z_max_nm  # z separations only make the dropped terms smaller
     as_sorted = lambda s: np.array(sorted(s, key=lambda t: (abs(t[0]) + abs(t[1]), t)), dtype=np.int64)  # noqa: E731
-    return EwaldPlan(direct=as_sorted(direct), reciprocal=as_sorted(recip))
+    return EwaldPlan(direct=as_sorted(direct), reciprocal=as_sorted(recip), e_scale=float(e_scale))

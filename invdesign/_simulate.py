@@ -193,12 +193,14 @@ class Problem:
 
 
 def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
-            incidence: Incidence = Incidence(), period_scales=(1.0,)) -> Problem:
+            incidence: Incidence = Incidence(), period_scales=(1.0,), ewald_scale: float = 1.0) -> Problem:
     """Check inputs and precompute the static part of a simulation (materials, truncation, orders).
 
     Raises ``InvdesignError`` (before any heavy work) for wavelengths outside a material's data or a
     non-positive wavelength. ``period_scales``: lattice scale factors the Ewald truncation must cover
-    (the optimiser passes its period bounds).
+    (the optimiser passes its period bounds). ``ewald_scale``: the Ewald split parameter's scale the
+    plan is cut for (``make_ewald_plan(e_scale=...)``; the verification solver's kernel table uses
+    ``invdesign._green_grid.GRID_EWALD_SCALE``).
     """
     wl = np.atleast_1d(np.asarray(wavelengths_nm, dtype=float))
     if wl.ndim != 1 or wl.size == 0 or not np.all(np.isfinite(wl)) or np.any(wl <= 0):
@@ -220,7 +222,8 @@ def prepare(design, wavelengths_nm, *, model: ModelOptions = ModelOptions(),
     sin_t = math.sin(math.radians(incidence.polar_deg))
     kpar_max = k_max * abs(sin_t)
     r_max = 0.5 * (math.hypot(*a1) + math.hypot(*a2))  # bound on wrapped in-cell separations
-    plan = make_ewald_plan(a1, a2, k_max, r_max_nm=r_max, kpar_max_per_m=kpar_max, scales=period_scales)
+    plan = make_ewald_plan(a1, a2, k_max, r_max_nm=r_max, kpar_max_per_m=kpar_max, scales=period_scales,
+                           e_scale=ewald_scale)
     iplan = None
     if interface:
         heights = [float(e.height()) for e in design.elements]

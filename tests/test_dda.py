@@ -141,7 +141,7 @@ def test_fft_product_equals_dense_product_periodic(rng, polar_deg):
     dense = interaction_matrix(jnp.asarray(pos), jnp.asarray(np.repeat(lam[:, None], 3, 1)),
                                jnp.broadcast_to(jnp.eye(3), (n_d, 3, 3)), k, jnp.asarray(kpar), lattice,
                                setup.problem.plan)
-    kern = lattice_kernel(g.shape, g.spacing_nm * NM, k, jnp.asarray(kpar), lattice, setup.problem.plan,
+    kern = lattice_kernel(g.shape, g.spacing_nm * NM, k, jnp.asarray(kpar), lattice, setup.kernel_plan,
                           setup.exclude)
     mv = make_matvec(kern, jnp.asarray(lam - 1j * k**3 / (6 * np.pi)), g.shape, g.occupied)
     p = rng.normal(size=(n_d, 3)) + 1j * rng.normal(size=(n_d, 3))
@@ -149,7 +149,7 @@ def test_fft_product_equals_dense_product_periodic(rng, polar_deg):
     got = np.asarray(mv(jnp.asarray(p)))
     assert np.linalg.norm(got - want) < 1e-10 * np.linalg.norm(want)
     if polar_deg == 0.0:  # the half table mirrored by G_L(−r) = G_L(r) is the same kernel
-        half = lattice_kernel(g.shape, g.spacing_nm * NM, k, jnp.asarray(kpar), lattice, setup.problem.plan,
+        half = lattice_kernel(g.shape, g.spacing_nm * NM, k, jnp.asarray(kpar), lattice, setup.kernel_plan,
                               setup.exclude, even=True)
         assert np.max(np.abs(np.asarray(half - kern))) < 1e-12 * np.max(np.abs(np.asarray(kern)))
 
@@ -171,7 +171,7 @@ def test_iterative_solve_matches_dense_direct_solve(method):
     b = np.zeros((n_d, 3), complex)
     b[:, 0] = np.exp(-1j * k * g.positions_nm()[:, 2] * NM)
     want = np.linalg.solve(np.asarray(dense), b.ravel())  # [NP] LU
-    kern = lattice_kernel(g.shape, g.spacing_nm * NM, k, jnp.zeros(2), lattice, setup.problem.plan,
+    kern = lattice_kernel(g.shape, g.spacing_nm * NM, k, jnp.zeros(2), lattice, setup.kernel_plan,
                           setup.exclude)
     mv = make_matvec(kern, lam_v - 1j * k**3 / (6 * np.pi), g.shape, g.occupied)
     x, stats = solve(lambda v: mv(v.reshape(n_d, 3)).reshape(-1), jnp.asarray(b.ravel()),

@@ -83,7 +83,7 @@ def _dense_case(wl=900.0, polar_deg=0.0):
                                    jnp.broadcast_to(jnp.eye(3), (n_d, 3, 3)), k, kvec[:2], lattice,
                                    setup.problem.plan)
         want.append(np.linalg.solve(np.asarray(dense), np.asarray(rhs[i]).ravel()).reshape(n_d, 3))  # [NP]
-    kern = lattice_kernel(g.shape, g.spacing_nm * NM, k, kvec[:2], lattice, setup.problem.plan, setup.exclude)
+    kern = lattice_kernel(g.shape, g.spacing_nm * NM, k, kvec[:2], lattice, setup.kernel_plan, setup.exclude)
     g_self = lattice_dyadic(jnp.zeros(3), jnp.asarray(True), k, kvec[:2], lattice, setup.problem.plan)
     return d, setup, kern, lam - 1j * k**3 / (6 * np.pi), rhs, g_self, k, np.stack(want)
 
