@@ -18,7 +18,8 @@ each size also prints XLA's buffer assignment of the compiled one-wavelength sol
 FFT, the FFT product's work arrays, the Krylov vectors; ``kern MB`` is the 6 complex FFT-box arrays of
 the kernel alone, ``temp MB`` the temporaries, ``solv MB`` their sum with arguments and outputs), and
 fits it against the dipole count and the FFT-box size (all sizes, and the 3 largest, where the bytes per
-FFT-box point have settled; below that a fixed Ewald tabulation workspace of some 50 MiB dominates).
+FFT-box point have settled; below that a fixed Ewald tabulation workspace dominates: 6.7 MiB with the
+grid tabulation, ~50 MiB before).
 The FFT box is twice the grid over the elements' bounding box (not the lattice cell), so at a fixed
 geometry it is a constant multiple of the dipole count.
 
