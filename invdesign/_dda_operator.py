@@ -30,10 +30,8 @@ import numpy as np
 import scipy.fft
 
 from ._green import free_dyadic
-from ._green_grid import grid_lattice_dyadic
+from ._green_grid import COMPONENTS, grid_lattice_dyadic
 
-#: (a, b) index pairs of the six stored tensor components
-COMPONENTS = ((0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2))
 #: component number of each (a, b), symmetric
 _INDEX = np.array([[0, 1, 2], [1, 3, 4], [2, 4, 5]])
 

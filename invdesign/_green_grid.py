@@ -36,7 +36,7 @@ from ._green import _real_space_dyadics, _self_real_space, _spectral_profiles, _
 #: neighbours), past it only the spectral orders grow.
 GRID_EWALD_SCALE = 4.0
 
-#: (a, b) index pairs of the six stored tensor components (as ``invdesign._dda_operator.COMPONENTS``)
+#: (a, b) index pairs of the six stored tensor components (the kernel table's order, ``_dda_operator``)
 COMPONENTS = ((0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2))
 
 
